@@ -1,0 +1,1 @@
+"""Running a recipe: the step registry and the pipeline."""
