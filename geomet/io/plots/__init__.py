@@ -1,0 +1,1 @@
+"""PNG plots: functions that take tables and return matplotlib figures (no science)."""
