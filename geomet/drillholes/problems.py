@@ -23,6 +23,7 @@ class Problem:
     hole_id: str | None = None
     column: str | None = None
     value: str | None = None
+    row: int | None = None  # index label of the offending row in the table (used to exclude it)
 
 
 def problems_frame(problems: list[Problem]) -> pd.DataFrame:
@@ -32,5 +33,6 @@ def problems_frame(problems: list[Problem]) -> pd.DataFrame:
         return pd.DataFrame(columns=cols)
     frame = pd.DataFrame([asdict(p) for p in problems], columns=cols)
     frame["_sev"] = (frame["severity"] != ERROR).astype(int)
-    frame = frame.sort_values(["_sev", "table", "line"], kind="stable", na_position="last")
-    return frame.drop(columns="_sev").reset_index(drop=True)
+    frame["_last"] = (frame["rule"] == "more_problems").astype(int)  # the cap's summary row
+    frame = frame.sort_values(["_last", "_sev", "table", "line"], kind="stable", na_position="last")
+    return frame.drop(columns=["_sev", "_last"]).reset_index(drop=True)

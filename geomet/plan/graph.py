@@ -1,0 +1,323 @@
+"""Where ore can go: the route graph of the blend model (networkx ``DiGraph``).
+
+Nodes have a ``kind``:
+
+- ``source``: an ore parcel (mined in its period; attributes from :mod:`geomet.plan.parcels`);
+- ``stockpile``: a segregated stockpile holding one domain (capacity, rehandle cost, opening
+  inventory). One stockpile per domain keeps the model linear: reclaimed ore carries the domain's
+  average attributes, so no grade × tonnage product of two variables appears;
+- ``processor``: the concentrator (``mill``) or the heap leach pad (``leach``), each with limits;
+- ``sink``: the waste dump and the products (concentrate, cathode).
+
+Edges are allowed movements with an optional extra cost ``cost_usd_t`` [USD/t].
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+
+import networkx as nx
+import numpy as np
+import pandas as pd
+
+from geomet.errors import InputDataError
+from geomet.plan.parcels import PARCEL_ATTRIBUTES, weighted_mean
+
+NODE_KINDS = ("source", "stockpile", "processor", "sink")
+PROCESSORS = ("mill", "leach")
+WASTE = "waste"
+PRODUCTS = "products"
+
+
+def route_graph(nodes: Sequence[Mapping], edges: Sequence[Mapping]) -> nx.DiGraph:
+    """Build and validate a route graph from plain records.
+
+    Parameters
+    ----------
+    nodes : sequence of mapping
+        Each with ``node`` (id) and ``kind`` (one of :data:`NODE_KINDS`) plus attributes:
+        sources ``tonnes_t``, ``period`` and the parcel attributes; stockpiles ``capacity_t``,
+        ``opening_t``, ``rehandle_usd_t``; processors ``limits`` (dict name -> per-period values).
+    edges : sequence of mapping
+        Each with ``from``, ``to`` and optional ``cost_usd_t``.
+
+    Returns
+    -------
+    networkx.DiGraph
+
+    Raises
+    ------
+    InputDataError
+        On duplicate or unknown nodes, unknown kinds, or any rule of :func:`validate_route_graph`.
+    """
+    graph = nx.DiGraph()
+    problems = []
+    for record in nodes:
+        attrs = dict(record)
+        node = attrs.pop("node")
+        if node in graph:
+            problems.append(f"node {node!r} is defined twice")
+        if attrs.get("kind") not in NODE_KINDS:
+            problems.append(
+                f"node {node!r} has kind {attrs.get('kind')!r}; expected one of {NODE_KINDS}"
+            )
+        graph.add_node(node, **attrs)
+    for record in edges:
+        attrs = dict(record)
+        u, v = attrs.pop("from"), attrs.pop("to")
+        unknown = [n for n in (u, v) if n not in graph]
+        if unknown:
+            problems.append(f"edge {u!r} -> {v!r} names unknown node(s) {unknown}")
+            continue
+        attrs.setdefault("cost_usd_t", 0.0)
+        graph.add_edge(u, v, **attrs)
+    if problems:
+        message = "route graph is not valid: " + "; ".join(problems[:20])
+        raise InputDataError(message)
+    validate_route_graph(graph)
+    graph.graph["validated"] = True
+    return graph
+
+
+def validate_route_graph(graph: nx.DiGraph) -> None:
+    """Check the rules of a route graph and raise one error listing every breach.
+
+    Rules: every source and stockpile reaches a sink; edges never enter a source or leave a
+    sink; processors send only to sinks; every processor has a ``<name>_max_t`` limit; capacities,
+    opening inventories, tonnages and costs are not negative; an opening inventory fits its
+    capacity.
+    """
+    problems = []
+    sinks = {n for n, k in graph.nodes(data="kind") if k == "sink"}
+    if not sinks:
+        problems.append("the graph has no sink (waste dump or products)")
+    reaches_sink = _reaching(graph, sinks)
+    for node, attrs in graph.nodes(data=True):
+        kind = attrs.get("kind")
+        if kind == "source":
+            if graph.in_degree(node):
+                problems.append(f"source {node!r} has incoming edges")
+            if not attrs.get("tonnes_t", 0) >= 0:
+                problems.append(
+                    f"source {node!r} has tonnes_t={attrs.get('tonnes_t')}; must be >= 0"
+                )
+        if kind in ("source", "stockpile") and sinks and node not in reaches_sink:
+            problems.append(f"{kind} {node!r} reaches no sink")
+        if kind == "sink" and graph.out_degree(node):
+            problems.append(f"sink {node!r} has outgoing edges")
+        if kind == "processor":
+            bad = [v for v in graph.successors(node) if graph.nodes[v].get("kind") != "sink"]
+            if bad:
+                problems.append(f"processor {node!r} sends to non-sink node(s) {bad}")
+            limits = attrs.get("limits") or {}
+            cap = limits.get(f"{node}_max_t")
+            if cap is None or np.isnan(np.asarray(cap, float)).any():
+                problems.append(
+                    f"processor {node!r} has no {node}_max_t limit in every period "
+                    "(a processor without a tonnage limit is unbounded)"
+                )
+        if kind == "stockpile":
+            cap = attrs.get("capacity_t", math.inf)
+            opening = attrs.get("opening_t", 0.0)
+            if not cap >= 0:
+                problems.append(f"stockpile {node!r} has capacity_t={cap}; must be >= 0")
+            if not opening >= 0:
+                problems.append(f"stockpile {node!r} has opening_t={opening}; must be >= 0")
+            elif opening > cap:
+                problems.append(f"stockpile {node!r} opening_t={opening} exceeds capacity_t={cap}")
+            if attrs.get("rehandle_usd_t", 0.0) < 0:
+                problems.append(f"stockpile {node!r} has a negative rehandle_usd_t")
+    for u, v, cost in (
+        (u, v, d.get("cost_usd_t")) for u, nbrs in graph.adjacency() for v, d in nbrs.items()
+    ):
+        if cost is not None and cost < 0:
+            problems.append(f"edge {u!r} -> {v!r} has cost_usd_t={cost}; must be >= 0")
+    if problems:
+        message = "route graph is not valid: " + "; ".join(problems[:20])
+        if len(problems) > 20:
+            message += f" (and {len(problems) - 20} more)"
+        raise InputDataError(message)
+
+
+def _reaching(graph: nx.DiGraph, targets) -> set:
+    """Nodes with a path to any of ``targets`` (reverse search over the predecessor dicts)."""
+    pred = graph._pred  # plain dict of dicts: much faster than the public views on large graphs
+    seen = set(targets)
+    stack = list(targets)
+    while stack:
+        for p in pred[stack.pop()]:
+            if p not in seen:
+                seen.add(p)
+                stack.append(p)
+    return seen
+
+
+def blend_route_graph(
+    parcels: pd.DataFrame,
+    limits: Mapping[str, np.ndarray],
+    *,
+    mill: bool = True,
+    leach: bool = True,
+    stockpiles: bool = True,
+    stockpile_capacity_t: float = math.inf,
+    stockpile_opening_t: Mapping[str, float] | None = None,
+    rehandle_usd_t: float = 1.2,
+    stockpile_cost_usd_t: float = 0.3,
+    stockpile_min_cu_pct: float = 0.0,
+    stockpile_groups: Mapping[str, str] | None = None,
+    leach_min_oxide_ratio_frac: float = 0.5,
+    mill_max_oxide_ratio_frac: float | None = None,
+    waste_max_cu_pct: float | None = None,
+) -> nx.DiGraph:
+    """Route graph of a concentrator, a leach pad, segregated stockpiles and a waste dump.
+
+    Parameters
+    ----------
+    parcels : DataFrame
+        From :func:`geomet.plan.parcels.parcels_from_blocks` (``parcel_id``, ``domain``,
+        ``period``, ``tonnes_t`` and attributes).
+    limits : mapping
+        Limit name -> per-period values (from :func:`geomet.plan.limits.period_limits`);
+        each processor node receives the limits whose name starts with its own name (acid supply
+        goes to the leach pad).
+    mill, leach, stockpiles : bool
+        Which parts of the plant exist.
+    stockpile_capacity_t : float
+        Capacity of each domain stockpile [t].
+    stockpile_opening_t : mapping, optional
+        Domain -> opening inventory [t].
+    rehandle_usd_t : float
+        Cost of reclaiming a tonne from a stockpile [USD/t].
+    stockpile_cost_usd_t : float
+        Extra haul and placement cost of a tonne sent to a stockpile rather than straight to a
+        processor or the dump [USD/t] (the cost on parcel -> stockpile edges). It also stops the
+        optimiser from parking ore it will never reclaim, which would otherwise cost nothing.
+    stockpile_min_cu_pct : float
+        Parcels below this grade [% Cu] are not stockpiled.
+    stockpile_groups : mapping, optional
+        Domain -> stockpile name, to share one stockpile between several domains (default: one
+        stockpile per domain). A shared stockpile carries the tonnage-weighted average of all the
+        parcels that may enter it; ``stockpile_opening_t`` is then keyed by stockpile name.
+    leach_min_oxide_ratio_frac : float
+        Routing rule: only parcels (and stockpiles) with oxide ratio at or above this go to leach.
+    mill_max_oxide_ratio_frac : float, optional
+        Routing rule: parcels above this oxide ratio never go to the mill (None = any may).
+    waste_max_cu_pct : float, optional
+        Ore rule: parcels above this grade [% Cu] may not go to waste (None = any may).
+
+    Returns
+    -------
+    networkx.DiGraph
+        Validated with :func:`validate_route_graph`.
+    """
+    attrs = [c for c in (*PARCEL_ATTRIBUTES, "oxide_ratio_frac") if c in parcels.columns]
+    opening = dict(stockpile_opening_t or {})
+    nodes: list[dict] = [
+        {"node": WASTE, "kind": "sink"},
+        {"node": PRODUCTS, "kind": "sink"},
+    ]
+    edges: list[dict] = []
+    procs = [p for p, on in (("mill", mill), ("leach", leach)) if on]
+    for proc in procs:
+        own = {k: np.array(v, float) for k, v in limits.items() if k.startswith(proc + "_")}
+        if proc == "leach" and "acid_supply_t" in limits:
+            own["acid_supply_t"] = np.array(limits["acid_supply_t"], float)
+        nodes.append({"node": proc, "kind": "processor", "limits": own})
+        edges.append({"from": proc, "to": PRODUCTS})
+
+    def allowed(proc: str, oxide_ratio: float) -> bool:
+        if proc == "leach":
+            return oxide_ratio >= leach_min_oxide_ratio_frac
+        return mill_max_oxide_ratio_frac is None or oxide_ratio <= mill_max_oxide_ratio_frac
+
+    columns = list(parcels.columns)
+    records = [
+        dict(zip(columns, row, strict=True))
+        for row in zip(*(parcels[c].tolist() for c in columns), strict=True)
+    ]
+    stock_members: dict[str, list[dict]] = {}
+    groups = {str(k): str(v) for k, v in (stockpile_groups or {}).items()}
+
+    def group_of(domain) -> str:
+        return groups.get(str(domain), str(domain))
+
+    unknown = sorted(set(groups) - {str(d) for d in parcels["domain"].unique()})
+    if unknown:
+        message = f"stockpile_groups names domain(s) {unknown} that no parcel has"
+        raise InputDataError(message)
+
+    for rec in records:
+        node = rec["parcel_id"]
+        nodes.append(
+            {"node": node, "kind": "source", **{k: rec[k] for k in rec if k != "parcel_id"}}
+        )
+        ox = float(rec.get("oxide_ratio_frac", 0.0))
+        for proc in procs:
+            if allowed(proc, ox):
+                edges.append({"from": node, "to": proc})
+        if waste_max_cu_pct is None or rec["cu_pct"] <= waste_max_cu_pct:
+            edges.append({"from": node, "to": WASTE})
+        if stockpiles and rec["cu_pct"] >= stockpile_min_cu_pct:
+            stock_members.setdefault(group_of(rec["domain"]), []).append(rec)
+
+    if stockpiles:
+        by_domain: dict[str, list[dict]] = {}
+        for rec in records:
+            by_domain.setdefault(group_of(rec["domain"]), []).append(rec)
+        unknown = sorted(set(opening) - set(by_domain))
+        if unknown:
+            message = (
+                f"stockpile opening inventory names stockpile(s) {unknown}; stockpiles are "
+                f"named by domain or stockpile group: {sorted(by_domain)[:20]}"
+            )
+            raise InputDataError(message)
+        for domain in sorted(set(stock_members) | set(opening)):
+            members = stock_members.get(domain) or by_domain[domain]
+            node = f"stockpile:{domain}"
+            values = _stockpile_attributes(members, attrs)
+            outs = [p for p in procs if allowed(p, values.get("oxide_ratio_frac", 0.0))]
+            if not outs:
+                continue  # a stockpile no processor may reclaim from would only hold ore
+            nodes.append(
+                {
+                    "node": node,
+                    "kind": "stockpile",
+                    "domain": domain,
+                    "capacity_t": float(stockpile_capacity_t),
+                    "opening_t": float(opening.get(domain, 0.0)),
+                    "rehandle_usd_t": float(rehandle_usd_t),
+                    **values,
+                }
+            )
+            edges.extend({"from": node, "to": p} for p in outs)
+            for rec in stock_members.get(domain, []):
+                edges.append(
+                    {
+                        "from": rec["parcel_id"],
+                        "to": node,
+                        "cost_usd_t": float(stockpile_cost_usd_t),
+                    }
+                )
+    return route_graph(nodes, edges)
+
+
+def _stockpile_attributes(members: list[dict], attrs: Sequence[str]) -> dict[str, float]:
+    """Tonnage-weighted attributes of a domain stockpile (recoveries weighted by metal)."""
+
+    def column(name):
+        return np.fromiter((m.get(name, np.nan) for m in members), dtype=float, count=len(members))
+
+    tonnes = column("tonnes_t")
+    weights = {"tonnes": tonnes, "cu": tonnes * column("cu_pct")}
+    if "au_gpt" in attrs:
+        weights["au"] = tonnes * column("au_gpt")
+    out = {}
+    for col in attrs:
+        if col == "oxide_ratio_frac":
+            continue
+        w = weights.get(PARCEL_ATTRIBUTES.get(col, "tonnes"), tonnes)
+        out[col] = weighted_mean(column(col), w if w.sum() > 0 else tonnes)
+    if "cu_asol_pct" in out:
+        out["oxide_ratio_frac"] = out["cu_asol_pct"] / out["cu_pct"] if out["cu_pct"] > 0 else 0.0
+    return out
