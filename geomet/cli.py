@@ -8,6 +8,7 @@ has errors and 0 otherwise.
 from __future__ import annotations
 
 import argparse
+import contextlib
 import logging
 import sys
 from collections.abc import Sequence
@@ -34,7 +35,7 @@ EPILOG = """\
 examples:
   geomet demo --out vellantra_demo          write the invented Vellantra demo data set
   geomet check recipes/demo.toml            check the input files, report problems by file and line
-  geomet run recipes/demo.toml              run every step of the recipe; results in its output folder
+  geomet run recipes/demo.toml              run every step; results go to the recipe's output folder
   geomet run recipes/demo.toml --out results/june --quiet
   geomet composite recipes/demo.toml --out composites.csv
   geomet recipe --explain composite         every option of the [composite] section
@@ -47,82 +48,111 @@ the inputs or a step (the message says which)."""
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``geomet`` command."""
     parser = argparse.ArgumentParser(
-        prog="geomet", description=DESCRIPTION, epilog=EPILOG,
+        prog="geomet",
+        description=DESCRIPTION,
+        epilog=EPILOG,
         formatter_class=argparse.RawDescriptionHelpFormatter,
     )
     parser.add_argument("--version", action="version", version=f"geomet {geomet.__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
 
     run = sub.add_parser(
-        "run", help="run a recipe and write its output folder",
+        "run",
+        help="run a recipe and write its output folder",
         description="Read the recipe's input files, run its steps and write the output folder: "
-                    "the workbook, tables/ (CSV or Parquet copies of every produced table), plots/, "
-                    "models/, run.log, a copy of the recipe and provenance.json. The folder is "
-                    "replaced only when the whole run succeeds.",
+        "the workbook, tables/ (CSV or Parquet copies of every produced table), plots/, "
+        "models/, run.log, a copy of the recipe and provenance.json. The folder is "
+        "replaced only when the whole run succeeds.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="example:\n  geomet run recipes/demo.toml --out results/vellantra_q3")
+        epilog="example:\n  geomet run recipes/demo.toml --out results/vellantra_q3",
+    )
     run.add_argument("recipe", type=Path, help="recipe file (TOML)")
     run.add_argument("--out", type=Path, help="output folder (default: the recipe's run.output)")
     run.add_argument("--quiet", action="store_true", help="no progress or step messages")
     run.set_defaults(handler=_cmd_run)
 
     check = sub.add_parser(
-        "check", help="check the recipe's input files and report every problem",
+        "check",
+        help="check the recipe's input files and report every problem",
         description="Read the recipe's input files and run only the check step (with "
-                    'on_error = "warn"). Problems are printed grouped by file, with line numbers. '
-                    "Exit status 1 when there are errors, 0 when there are none (warnings allowed).",
+        'on_error = "warn"). Problems are printed grouped by file, with line numbers. '
+        "Exit status 1 when there are errors, 0 when there are none (warnings allowed).",
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="example:\n  geomet check recipes/demo.toml")
+        epilog="example:\n  geomet check recipes/demo.toml",
+    )
     check.add_argument("recipe", type=Path, help="recipe file (TOML)")
-    check.add_argument("--max-lines", type=int, default=50, metavar="N",
-                       help="problems shown per file (default 50; all are counted)")
+    check.add_argument(
+        "--max-lines",
+        type=int,
+        default=50,
+        metavar="N",
+        help="problems shown per file (default 50; all are counted)",
+    )
     check.set_defaults(handler=_cmd_check)
 
     comp = sub.add_parser(
-        "composite", help="check and composite the drill-hole data into one file",
+        "composite",
+        help="check and composite the drill-hole data into one file",
         description="Run the check and composite steps of the recipe (with their recipe options) "
-                    "and write the composites to a .csv or .parquet file.",
+        "and write the composites to a .csv or .parquet file.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="example:\n  geomet composite recipes/demo.toml --out vellantra_composites.parquet")
+        epilog="example:\n  geomet composite recipes/demo.toml --out vellantra_composites.parquet",
+    )
     comp.add_argument("recipe", type=Path, help="recipe file (TOML)")
     comp.add_argument("--out", type=Path, required=True, help="output file, .csv or .parquet")
     comp.add_argument("--quiet", action="store_true", help="no progress or step messages")
     comp.set_defaults(handler=_cmd_composite)
 
     demo = sub.add_parser(
-        "demo", help="write the invented Vellantra demo data set",
+        "demo",
+        help="write the invented Vellantra demo data set",
         description="Write the input files of the invented Vellantra porphyry Cu-Au deposit "
-                    "(Orrin Vale Resources): collars, surveys, assays, scan, lithology, density, "
-                    "testwork, blocks, schedule and plant limits. Same seed, same files.",
+        "(Orrin Vale Resources): collars, surveys, assays, scan, lithology, density, "
+        "testwork, blocks, schedule and plant limits. Same seed, same files.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="example:\n  geomet demo --out vellantra_demo --seed 7 --holes 60")
+        epilog="example:\n  geomet demo --out vellantra_demo --seed 7 --holes 60",
+    )
     demo.add_argument("--out", type=Path, required=True, help="folder to write the files in")
-    demo.add_argument("--seed", type=int, default=7, help="random seed (default 7, the bundled demo)")
+    demo.add_argument(
+        "--seed", type=int, default=7, help="random seed (default 7, the bundled demo)"
+    )
     demo.add_argument("--holes", type=int, default=None, help="number of drill holes")
     demo.set_defaults(handler=_cmd_demo)
 
     recipe = sub.add_parser(
-        "recipe", help="explain the recipe options",
+        "recipe",
+        help="explain the recipe options",
         description="Print every recipe option: key path, type, default, allowed values and "
-                    "meaning. Give a section (run, inputs, detection, or a step name) or a key "
-                    "path inside one (e.g. blend.mill) to narrow the list.",
+        "meaning. Give a section (run, inputs, detection, or a step name) or a key "
+        "path inside one (e.g. blend.mill) to narrow the list.",
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="examples:\n  geomet recipe --explain\n  geomet recipe --explain detection")
-    recipe.add_argument("--explain", nargs="?", const="", default=None, metavar="SECTION",
-                        help="section or key path to explain (default: all)")
-    recipe.add_argument("--validate", type=Path, metavar="RECIPE",
-                        help="validate a recipe file without running it")
+        epilog="examples:\n  geomet recipe --explain\n  geomet recipe --explain detection",
+    )
+    recipe.add_argument(
+        "--explain",
+        nargs="?",
+        const="",
+        default=None,
+        metavar="SECTION",
+        help="section or key path to explain (default: all)",
+    )
+    recipe.add_argument(
+        "--validate", type=Path, metavar="RECIPE", help="validate a recipe file without running it"
+    )
     recipe.set_defaults(handler=_cmd_recipe)
 
-    steps = sub.add_parser("steps", help="list the registered steps with their needs and products",
-                           description="List every step a recipe can run, in run order, with the "
-                                       "tables it needs and produces.")
+    steps = sub.add_parser(
+        "steps",
+        help="list the registered steps with their needs and products",
+        description="List every step a recipe can run, in run order, with the "
+        "tables it needs and produces.",
+    )
     steps.set_defaults(handler=_cmd_steps)
     return parser
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    """Run the ``geomet`` command with ``argv`` (default: ``sys.argv[1:]``); return the exit status."""
+    """Run ``geomet`` with ``argv`` (default: ``sys.argv[1:]``) and return the exit status."""
     parser = build_parser()
     args = parser.parse_args(argv)
     if getattr(args, "handler", None) is None:
@@ -139,41 +169,23 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 
 # --- commands ------------------------------------------------------------------------------------
-class _StderrMessages:
+@contextlib.contextmanager
+def _stderr_messages(quiet: bool):
     """Show the run's step messages on stderr while a command runs (unless quiet)."""
+    if quiet:
+        yield
+        return
+    from geomet.run.pipeline import log_to
 
-    def __init__(self, quiet: bool):
-        self.quiet = quiet
-        self.handler = None
-
-    def __enter__(self):
-        if not self.quiet:
-            from geomet.run.pipeline import LOGGER_NAME
-
-            self.handler = logging.StreamHandler(sys.stderr)
-            self.handler.setFormatter(logging.Formatter("geomet: %(message)s"))
-            log = logging.getLogger(LOGGER_NAME)
-            log.addHandler(self.handler)
-            self.old_level = log.level
-            if log.getEffectiveLevel() > logging.INFO:
-                log.setLevel(logging.INFO)
-        return self
-
-    def __exit__(self, *exc):
-        if self.handler is not None:
-            from geomet.run.pipeline import LOGGER_NAME
-
-            log = logging.getLogger(LOGGER_NAME)
-            log.removeHandler(self.handler)
-            log.setLevel(self.old_level)
-        return False
+    with log_to(logging.StreamHandler(sys.stderr), prefix="geomet: "):
+        yield
 
 
 def _cmd_run(args) -> int:
     from geomet.run.pipeline import run_recipe
 
     show = False if args.quiet else None
-    with _StderrMessages(args.quiet):
+    with _stderr_messages(args.quiet):
         result = run_recipe(args.recipe, out=args.out, show_progress=show)
     if not args.quiet:
         print(f"Wrote {result.out_dir}")
@@ -201,8 +213,14 @@ def format_report(report: pd.DataFrame, *, max_lines: int = 50) -> tuple[str, in
     if report is None or report.empty:
         return "No problems found.", 0
     frame = report.copy()
-    for col, default in (("file", ""), ("table", ""), ("severity", "error"), ("line", None),
-                         ("message", ""), ("rule", "")):
+    for col, default in (
+        ("file", ""),
+        ("table", ""),
+        ("severity", "error"),
+        ("line", None),
+        ("message", ""),
+        ("rule", ""),
+    ):
         if col not in frame.columns:
             frame[col] = default
     frame["_where"] = frame["file"].fillna("").astype(str)
@@ -219,7 +237,8 @@ def format_report(report: pd.DataFrame, *, max_lines: int = 50) -> tuple[str, in
         label = f"{where} ({', '.join(tables)})" if tables and tables != [where] else where
         lines.append(f"{label}: {_count(n_err, 'error')}, {_count(n_warn, 'warning')}")
         ordered = group.assign(_sev=(group["severity"] != "error").astype(int)).sort_values(
-            ["_sev", "line"], kind="stable", na_position="first")
+            ["_sev", "line"], kind="stable", na_position="first"
+        )
         for _, row in ordered.head(max_lines).iterrows():
             line = row["line"]
             at = f"line {int(line)}" if pd.notna(line) else "file"
@@ -227,8 +246,10 @@ def format_report(report: pd.DataFrame, *, max_lines: int = 50) -> tuple[str, in
         if len(group) > max_lines:
             lines.append(f"  ... and {len(group) - max_lines} more in this file")
     lines.append("")
-    lines.append(f"{_count(errors, 'error')}, {_count(warnings_, 'warning')} in "
-                 f"{_count(frame['_where'].nunique(), 'file')}.")
+    lines.append(
+        f"{_count(errors, 'error')}, {_count(warnings_, 'warning')} in "
+        f"{_count(frame['_where'].nunique(), 'file')}."
+    )
     return "\n".join(lines), errors
 
 
@@ -246,9 +267,12 @@ def _cmd_composite(args) -> int:
         message = f"--out must end in .csv or .parquet; got {args.out.name!r}"
         raise GeometError(message)
     recipe = load_recipe(args.recipe)
-    with _StderrMessages(args.quiet):
-        result = run_loaded_recipe(recipe, steps=["check", "composite"],
-                                   show_progress=not args.quiet and sys.stderr.isatty())
+    with _stderr_messages(args.quiet):
+        result = run_loaded_recipe(
+            recipe,
+            steps=["check", "composite"],
+            show_progress=not args.quiet and sys.stderr.isatty(),
+        )
     composites = result.tables["composites"]
     write_table(composites, args.out)
     if not args.quiet:
@@ -274,8 +298,10 @@ def _cmd_recipe(args) -> int:
 
     if args.validate is not None:
         recipe = load_recipe(args.validate)
-        print(f"{args.validate}: valid; steps: {', '.join(recipe.run.steps)}; inputs: "
-              f"{', '.join(recipe.inputs) or 'none'}")
+        print(
+            f"{args.validate}: valid; steps: {', '.join(recipe.run.steps)}; inputs: "
+            f"{', '.join(recipe.inputs) or 'none'}"
+        )
         if args.explain is None:
             return EXIT_OK
     print(explain(args.explain or None), end="")

@@ -174,13 +174,15 @@ def flag_blocks(
     out = {c: v[idx] for c, v in carried.items()}
     out["flag"] = pd.Categorical.from_codes(which, [r.flag for r in have])
     out["level"] = pd.Categorical.from_codes(code - 1, list(LEVELS))
-    out["column"] = pd.Categorical.from_codes(which, [r.column for r in have])
+    columns = list(dict.fromkeys(r.column for r in have))
+    col_code = np.array([columns.index(r.column) for r in have])
+    out["column"] = pd.Categorical.from_codes(col_code[which], columns)
     out["value"] = np.concatenate(values_kept)
     watch = np.array([r.watch for r in have])
     alert = np.array([r.alert for r in have])
     out["threshold"] = np.where(code == 2, alert[which], watch[which])
-    out["direction"] = pd.Categorical.from_codes(
-        which, [r.direction for r in have]).astype(pd.CategoricalDtype(list(DIRECTIONS)))
+    dir_code = np.array([DIRECTIONS.index(r.direction) for r in have])
+    out["direction"] = pd.Categorical.from_codes(dir_code[which], list(DIRECTIONS))
     return pd.DataFrame(out, columns=cols)
 
 

@@ -57,19 +57,35 @@ class Column:
     risk: bool = False  # shown with a colour scale in workbooks: higher means more process risk
 
 
+# Statistic suffixes that follow the unit (``cu_pct_p10``, ``clay_total_pct_mean``).
+STATISTIC_SUFFIXES = ("_mean", "_median", "_std", "_min", "_max", "_p10", "_p50", "_p90", "_lo",
+                      "_hi")
+
+
+def base_column(name: str) -> str:
+    """Strip one statistic suffix: ``cu_pct_p90`` -> ``cu_pct`` (other names unchanged)."""
+    for suffix in STATISTIC_SUFFIXES:
+        if name.endswith(suffix) and len(name) > len(suffix):
+            return name[: -len(suffix)]
+    return name
+
+
 def unit_of(name: str) -> str:
     """Return the unit label read from a column name's suffix ('' when it has none).
 
+    A statistic suffix after the unit is skipped, so ``cu_pct_p10`` is in % too.
+
     Examples
     --------
-    >>> unit_of("cu_pct"), unit_of("energy_kwh_t"), unit_of("hole_id")
-    ('%', 'kWh/t', '')
+    >>> unit_of("cu_pct"), unit_of("energy_kwh_t"), unit_of("hole_id"), unit_of("au_gpt_p90")
+    ('%', 'kWh/t', '', 'g/t')
     """
-    if name in COLUMNS:
-        return COLUMNS[name].unit
-    for suffix in sorted(UNIT_SUFFIXES, key=len, reverse=True):
-        if name.endswith(suffix):
-            return UNIT_SUFFIXES[suffix]
+    for candidate in (name, base_column(name)):
+        if candidate in COLUMNS:
+            return COLUMNS[candidate].unit
+        unit = _suffix_unit(candidate)
+        if unit:
+            return unit
     return ""
 
 

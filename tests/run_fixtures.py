@@ -14,13 +14,15 @@ HOLES = ("VL-001", "VL-002", "VL-003")
 
 
 def collars() -> pd.DataFrame:
-    return pd.DataFrame({
-        "hole_id": list(HOLES),
-        "easting_m": [1000.0, 1050.0, 1100.0],
-        "northing_m": [5000.0, 5000.0, 5050.0],
-        "elevation_m": [820.0, 815.0, 830.0],
-        "total_depth_m": [20.0, 20.0, 16.0],
-    })
+    return pd.DataFrame(
+        {
+            "hole_id": list(HOLES),
+            "easting_m": [1000.0, 1050.0, 1100.0],
+            "northing_m": [5000.0, 5000.0, 5050.0],
+            "elevation_m": [820.0, 815.0, 830.0],
+            "total_depth_m": [20.0, 20.0, 16.0],
+        }
+    )
 
 
 def surveys() -> pd.DataFrame:
@@ -42,8 +44,13 @@ def lab_assays() -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["HoleID", "From", "To", "Cu_%", "Au_ppb"])
 
 
-ASSAY_COLUMN_MAP = {"HoleID": "hole_id", "From": "from_m", "To": "to_m", "Cu_%": "cu_pct",
-                    "Au_ppb": "au_gpt"}
+ASSAY_COLUMN_MAP = {
+    "HoleID": "hole_id",
+    "From": "from_m",
+    "To": "to_m",
+    "Cu_%": "cu_pct",
+    "Au_ppb": "au_gpt",
+}
 
 
 def write_inputs(folder: Path) -> dict[str, Path]:
@@ -74,7 +81,8 @@ path = "data/surveys.csv"
 
 [inputs.assays]
 path = "data/assays.csv"
-columns = {{ HoleID = "hole_id", From = "from_m", To = "to_m", "Cu_%" = "cu_pct", Au_ppb = "au_gpt" }}
+columns = {{ HoleID = "hole_id", From = "from_m", To = "to_m", "Cu_%" = "cu_pct", \
+Au_ppb = "au_gpt" }}
 units = {{ au_gpt = "ppb" }}
 
 [check]
@@ -85,12 +93,14 @@ length_m = 4.0
 {extra}"""
 
 
-def write_recipe(folder: Path, *, steps=("check", "composite"), table_format="csv",
-                 extra: str = "") -> Path:
+def write_recipe(
+    folder: Path, *, steps=("check", "composite"), table_format="csv", extra: str = ""
+) -> Path:
     """Write the inputs under ``folder/data`` and a recipe ``folder/test.toml``."""
     write_inputs(folder / "data")
-    text = RECIPE.format(steps=", ".join(f'"{s}"' for s in steps), table_format=table_format,
-                         extra=extra)
+    text = RECIPE.format(
+        steps=", ".join(f'"{s}"' for s in steps), table_format=table_format, extra=extra
+    )
     path = folder / "test.toml"
     path.write_text(text, encoding="utf-8")
     return path

@@ -182,3 +182,28 @@ def test_sweep_makes_one_scenario_per_value():
 def test_sweep_cannot_nest():
     with pytest.raises(RecipeError, match="names no option"):
         apply_changes(BlendOptions(), {"sweep": {}})
+
+
+@pytest.mark.parametrize("off", ["mill", "leach"])
+def test_one_processor_switched_off(off):
+    _ctx, out = _run(BlendOptions(**{off: {"enabled": False}}))
+    plant = out["blend_plant"]
+    assert off not in set(plant["processor"])
+    assert out["blend_scenarios"]["status"].iloc[0] == "optimal"
+    assert off not in set(out["blend_schedule"]["destination"])
+
+
+def test_stockpile_groups_option():
+    opts = BlendOptions(stockpiles={"groups": {"D000": "low grade", "D001": "low grade"}})
+    _ctx, out = _run(opts)
+    assert "stockpile:D000" not in set(out["blend_stockpiles"]["stockpile"])
+    assert "stockpile:low grade" in set(out["blend_stockpiles"]["stockpile"])
+
+
+def test_warm_started_scenarios_give_the_same_plans():
+    sweep = {"mill.clay_severity_max_idx": [5.0, 9.0]}
+    _c, cold = _run(BlendOptions(sweep=sweep))
+    _w, warm = _run(BlendOptions(sweep=sweep, solver={"warm_start_scenarios": True}))
+    np.testing.assert_allclose(
+        warm["blend_scenarios"]["value_pv_usd"], cold["blend_scenarios"]["value_pv_usd"], rtol=1e-9
+    )

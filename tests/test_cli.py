@@ -7,10 +7,10 @@ import hashlib
 import openpyxl
 import pandas as pd
 import pytest
+from run_fixtures import lab_assays, write_recipe
 
 from geomet.cli import EPILOG, build_parser, format_report, main
 from geomet.run.registry import load_steps
-from run_fixtures import lab_assays, write_recipe
 
 
 def test_help_lists_commands_and_examples(capsys):
@@ -20,7 +20,8 @@ def test_help_lists_commands_and_examples(capsys):
     out = capsys.readouterr().out
     for command in ("run", "check", "composite", "demo", "recipe", "steps"):
         assert command in out
-    assert "examples:" in out and "geomet run recipes/demo.toml" in out
+    assert "examples:" in out
+    assert "geomet run recipes/demo.toml" in out
     assert EPILOG.splitlines()[0] in out
 
 
@@ -50,7 +51,8 @@ def test_recipe_explain(capsys):
     assert main(["recipe", "--explain", "composite"]) == 0
     out = capsys.readouterr().out
     assert out.startswith("[composite]")
-    assert "composite.length_m" in out and "default: 2.0" in out
+    assert "composite.length_m" in out
+    assert "default: 2.0" in out
     assert main(["recipe", "--explain"]) == 0
     assert "[run]" in capsys.readouterr().out
 
@@ -58,16 +60,19 @@ def test_recipe_explain(capsys):
 def test_recipe_explain_unknown_section_exits_2(capsys):
     assert main(["recipe", "--explain", "compsite"]) == 2
     err = capsys.readouterr().err
-    assert err.startswith("geomet: error: unknown recipe section 'compsite'; did you mean "
-                          "'composite'?")
+    assert err.startswith(
+        "geomet: error: unknown recipe section 'compsite'; did you mean 'composite'?"
+    )
     assert "Traceback" not in err
 
 
 def test_recipe_validate(tmp_path, capsys):
     path = write_recipe(tmp_path)
     assert main(["recipe", "--validate", str(path)]) == 0
-    assert "valid; steps: check, composite; inputs: collars, surveys, assays" in \
-        capsys.readouterr().out
+    assert (
+        "valid; steps: check, composite; inputs: collars, surveys, assays"
+        in capsys.readouterr().out
+    )
 
 
 def test_run_writes_the_output_folder(tmp_path, capsys):
@@ -88,7 +93,8 @@ def test_run_messages_when_not_quiet(tmp_path, capsys):
     path = write_recipe(tmp_path)
     assert main(["run", str(path)]) == 0
     captured = capsys.readouterr()
-    assert "Wrote " in captured.out and "composites: 14 rows" in captured.out
+    assert "Wrote " in captured.out
+    assert "composites: 14 rows" in captured.out
     assert "geomet: step 2/2 composite: started" in captured.err
 
 
@@ -97,8 +103,10 @@ def test_recipe_error_exits_2_without_traceback(tmp_path, capsys):
     path.write_text(path.read_text().replace("length_m = 4.0", "lenght_m = 4.0"))
     assert main(["run", str(path)]) == 2
     err = capsys.readouterr().err
-    assert "geomet: error: test.toml has 1 problem:\n  - composite.lenght_m: unknown key; did " \
-           "you mean 'length_m'?" in err
+    assert (
+        "geomet: error: test.toml has 1 problem:\n  - composite.lenght_m: unknown key; did "
+        "you mean 'length_m'?" in err
+    )
     assert "Traceback" not in err
     assert not (tmp_path / "out").exists()
 
@@ -132,16 +140,23 @@ def test_run_with_data_errors_exits_2(tmp_path, capsys):
 
 
 def test_format_report_groups_and_counts():
-    report = pd.DataFrame({
-        "severity": ["error", "warning", "error"], "rule": ["a", "b", "c"],
-        "message": ["bad from", "gap", "no collar"], "table": ["assays", "assays", "scan"],
-        "file": ["assays.csv", "assays.csv", ""], "line": [12, None, 3],
-    })
+    report = pd.DataFrame(
+        {
+            "severity": ["error", "warning", "error"],
+            "rule": ["a", "b", "c"],
+            "message": ["bad from", "gap", "no collar"],
+            "table": ["assays", "assays", "scan"],
+            "file": ["assays.csv", "assays.csv", ""],
+            "line": [12, None, 3],
+        }
+    )
     text, errors = format_report(report, max_lines=1)
     assert errors == 2
-    assert text.splitlines()[:3] == ["assays.csv (assays): 1 error, 1 warning",
-                                     "      line 12  error    bad from",
-                                     "  ... and 1 more in this file"]
+    assert text.splitlines()[:3] == [
+        "assays.csv (assays): 1 error, 1 warning",
+        "      line 12  error    bad from",
+        "  ... and 1 more in this file",
+    ]
     assert "scan: 1 error, 0 warnings" in text
     assert text.endswith("2 errors, 1 warning in 2 files.")
     assert format_report(pd.DataFrame(), max_lines=5) == ("No problems found.", 0)
@@ -152,7 +167,8 @@ def test_composite_writes_one_file(tmp_path, capsys):
     out = tmp_path / "comps.parquet"
     assert main(["composite", str(path), "--out", str(out), "--quiet"]) == 0
     frame = pd.read_parquet(out)
-    assert len(frame) == 14 and {"x_m", "cu_pct", "coverage_frac"} <= set(frame.columns)
+    assert len(frame) == 14
+    assert {"x_m", "cu_pct", "coverage_frac"} <= set(frame.columns)
     assert main(["composite", str(path), "--out", str(tmp_path / "c.csv")]) == 0
     assert "Wrote 14 composites" in capsys.readouterr().out
     pd.testing.assert_frame_equal(pd.read_csv(tmp_path / "c.csv"), frame, check_dtype=False)
@@ -161,8 +177,9 @@ def test_composite_writes_one_file(tmp_path, capsys):
 def test_composite_refuses_other_formats(tmp_path, capsys):
     path = write_recipe(tmp_path)
     assert main(["composite", str(path), "--out", str(tmp_path / "c.xlsx")]) == 2
-    assert "geomet: error: --out must end in .csv or .parquet; got 'c.xlsx'" in \
-        capsys.readouterr().err
+    assert (
+        "geomet: error: --out must end in .csv or .parquet; got 'c.xlsx'" in capsys.readouterr().err
+    )
 
 
 def test_demo_refuses_nonpositive_holes(tmp_path, capsys):
@@ -171,6 +188,7 @@ def test_demo_refuses_nonpositive_holes(tmp_path, capsys):
     assert "--holes must be a positive number of drill holes; got 0" in capsys.readouterr().err
 
 
+@pytest.mark.slow
 def test_demo_writes_files(tmp_path, capsys):
     pytest.importorskip("geomet.io.demo_files")
     assert main(["demo", "--out", str(tmp_path / "d"), "--seed", "3", "--holes", "4"]) == 0
@@ -179,7 +197,7 @@ def test_demo_writes_files(tmp_path, capsys):
     assert pd.read_csv(tmp_path / "d" / "collars.csv")["hole_id"].nunique() == 4
 
 
-# --- the bundled demo, end to end ------------------------------------------------------------------
+# --- the bundled demo, end to end ------------------------------------------------------
 def _demo_recipe(repo_root):
     import tomllib
 
@@ -209,21 +227,31 @@ def test_demo_check_finds_the_planted_errors(repo_root, capsys):
 def test_demo_run_end_to_end(repo_root, tmp_path, capsys):
     recipe = _demo_recipe(repo_root)
     out = tmp_path / "demo-run"
-    demo_before = {p.name: hashlib.sha256(p.read_bytes()).hexdigest()
-                   for p in (repo_root / "demo_data").glob("*.csv")}
+    demo_before = {
+        p.name: hashlib.sha256(p.read_bytes()).hexdigest()
+        for p in (repo_root / "demo_data").glob("*.csv")
+    }
     assert main(["run", str(recipe), "--out", str(out), "--quiet"]) == 0
     books = list(out.glob("*.xlsx"))
     assert len(books) == 1
     wb = openpyxl.load_workbook(books[0], read_only=True)
     assert wb.sheetnames[0] == "About this run"
     tables = sorted(p.stem for p in (out / "tables").glob("*.csv"))
-    for name in ("composites", "domain_summary", "block_forecasts", "blend_schedule",
-                 "testwork_selection", "validation_report"):
+    for name in (
+        "composites",
+        "domain_summary",
+        "block_forecasts",
+        "blend_schedule",
+        "testwork_selection",
+        "validation_report",
+    ):
         assert name in tables
     ws = wb["Domain summary"]
     header = next(ws.iter_rows(min_row=3, max_row=3, values_only=True))
     assert list(header) == list(pd.read_csv(out / "tables" / "domain_summary.csv").columns)
     wb.close()
     assert (out / "run.log").read_text().count("finished in") >= 8
-    assert demo_before == {p.name: hashlib.sha256(p.read_bytes()).hexdigest()
-                           for p in (repo_root / "demo_data").glob("*.csv")}
+    assert demo_before == {
+        p.name: hashlib.sha256(p.read_bytes()).hexdigest()
+        for p in (repo_root / "demo_data").glob("*.csv")
+    }

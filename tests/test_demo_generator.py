@@ -295,3 +295,37 @@ def test_lithology_logged_from_collar_to_end_of_hole(small):
         assert (t["lith_code"].iloc[1:].to_numpy() != t["lith_code"].iloc[:-1].to_numpy()).all()
     # logged runs: a few metres to tens of metres (contacts moved by up to 0.5 m each)
     assert ((lith["to_m"] - lith["from_m"]) >= 2.0).all()
+
+
+def test_tiny_demo_still_plants_four_errors():
+    data = generate_demo(seed=5, holes=2, scale=0.05)
+    assert len(data.planted_errors) == 4
+    assert len(data.files["collars"]) == 2
+
+
+def test_scale_must_be_finite():
+    with pytest.raises(RecipeError, match="scale must be positive; got scale=nan"):
+        generate_demo(scale=float("nan"))
+
+
+@settings(max_examples=80, deadline=None)
+@given(
+    st.lists(
+        st.tuples(st.integers(1, 12), st.sampled_from(["AND", "PEP", "DYK"])),
+        min_size=1,
+        max_size=25,
+    )
+)
+def test_absorbing_short_logged_runs_keeps_the_hole_covered(runs):
+    from geomet.demo.intervals import _absorb_short_runs
+
+    edges = np.cumsum([0] + [n for n, _ in runs])
+    raw = [
+        [float(a), float(b), c] for a, b, (_, c) in zip(edges[:-1], edges[1:], runs, strict=True)
+    ]
+    out = _absorb_short_runs(raw, 3.0)
+    assert out[0][0] == 0.0
+    assert out[-1][1] == edges[-1]  # total logged length conserved
+    assert all(a[1] == b[0] for a, b in zip(out[:-1], out[1:], strict=True))  # contiguous
+    assert all(a[2] != b[2] for a, b in zip(out[:-1], out[1:], strict=True))  # merged neighbours
+    assert len(out) == 1 or all(r[1] - r[0] >= 3.0 for r in out)

@@ -132,5 +132,8 @@ def test_errors():
         smooth_downhole(h, f, t, np.array([1, 2]), -1)
     with pytest.raises(InputDataError, match="'similar' or 'longer'"):
         smooth_downhole(h, f, t, np.array([1, 2]), 5, merge_to="random")
+    h3, f3, t3 = _intervals([1.0] * 6)
+    with pytest.raises(InputDataError, match="did not converge in 1 passes"):
+        smooth_downhole(h3, f3, t3, np.array([0, 1, 0, 1, 0, 1]), 5, max_passes=1)
     with pytest.raises(InputDataError, match="one row per interval"):
         smooth_downhole(h, f, t, np.array([1, 2]), 5, features=np.ones((3, 2)))

@@ -72,7 +72,7 @@ def test_summary_crosstab_notes_and_model(kmeans_run):
     assert s["stability_jaccard_frac"].between(0.9, 1.0).all()
     ct = out["domain_crosstab"]
     assert ct.empty
-    assert "No site domains or domain rules" in ct.attrs["note"]
+    assert "No site domains, domain rules" in ct.attrs["note"]
     text = "\n".join(ctx.notes)
     assert "principal components keep" in text
     assert "adjusted Rand index mean" in text
@@ -101,6 +101,19 @@ def test_rules_and_site_domains_compared(tables):
     assert site_rows["adjusted_rand_idx"].iloc[0] > 0.8
     assert "blocks_domained" not in out
     assert "rule_domain" in out["domained"].columns
+
+
+def test_lithology_compared_when_present(tables):
+    m = tables["mineralogy"].assign(lith_code=np.where(
+        tables["mineralogy"]["from_m"] < 60, "VOLC", "PORPH"))
+    ctx = StepContext(tables={"mineralogy": m}, seed=1)
+    ct = domains_step(ctx, DomainsOptions(**FAST))["domain_crosstab"]
+    assert set(ct["reference"]) == {"lith_code"}
+    assert set(ct["reference_domain"]) == {"VOLC", "PORPH"}
+    assert np.isclose(ct["length_m"].sum(), m["length_m"].sum())
+    none = domains_step(StepContext(tables={"mineralogy": m}),
+                        DomainsOptions(**FAST, compare_columns=[]))["domain_crosstab"]
+    assert none.empty
 
 
 def test_rules_method_assigns_blocks_by_rules(tables):
@@ -227,3 +240,14 @@ def test_rules_without_any_mineral_columns(tables):
     assert set(d["domain"]) == {"Higher grade", "Other"}
     assert "without mineral features" in "\n".join(ctx.notes)
     assert "domains_pipeline" not in ctx.extras
+
+
+def test_blocks_of_a_cluster_removed_by_smoothing_join_a_surviving_domain(tables):
+    # a 1 km minimum run leaves one run per hole: some k-means clusters vanish downhole
+    ctx = StepContext(tables=tables, seed=4)
+    out = domains_step(ctx, DomainsOptions(n_domains=4, min_run_m=1000.0,
+                                           stability_seed_offsets=[]))
+    d, b = out["domained"], out["blocks_domained"]
+    assert d.groupby("hole_id")["domain_id"].nunique().max() == 1
+    assert set(b["domain_id"]) <= set(d["domain_id"])
+    assert (b["domain_id"] > 0).all()

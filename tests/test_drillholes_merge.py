@@ -187,3 +187,19 @@ def test_overlap_pairs_sum_to_overlap_of_each_target(tables):
             if x.hole_id == y.hole_id:
                 expected += max(0.0, min(x.to_m, y.to_m) - max(x.from_m, y.from_m))
     assert ov.sum() == pytest.approx(expected)
+
+
+def test_censored_fraction_on_request():
+    a = pd.DataFrame(
+        {
+            "hole_id": ["H", "H"],
+            "from_m": [0.0, 1.0],
+            "to_m": [1.0, 4.0],
+            "cu_pct": [0.005, 0.3],
+            "cu_pct_censored": [True, False],
+        }
+    )
+    breaks = pd.DataFrame({"hole_id": ["H"], "from_m": [0.0], "to_m": [2.0]})
+    out = merge_intervals([a], breaks=breaks, censored_frac=True)
+    assert out["cu_pct_censored_frac"].tolist() == [0.5]  # 1 m of the 2 m was censored
+    assert "cu_pct_censored" not in out

@@ -193,6 +193,19 @@ def test_composite_with_censored_input_from_reader(tmp_path):
     assert row["cu_pct"] == pytest.approx((0.01 * 2 + 0.5 * 2) / 4)
 
 
+def test_composite_can_carry_censored_fractions(tmp_path):
+    path = tmp_path / "assays.csv"
+    path.write_text("hole_id,from_m,to_m,cu_pct\nVL-002,0,1,<0.02\nVL-002,1,4,0.5\n")
+    src = read_table(path, table="assays")
+    tables = {**vellantra(), "assays": src.table}
+    ctx = StepContext(tables=tables)
+    comp = composite_step(ctx, CompositeOptions(length_m=4.0, censored_frac=True))["composites"]
+    row = comp[(comp.hole_id == "VL-002") & (comp.from_m == 0.0)].iloc[0]
+    assert row["cu_pct_censored_frac"] == pytest.approx(0.25)  # 1 m of 4 m below detection
+    assert "cu_pct_censored" not in comp.columns
+    assert "censored fractions carried as <column>_censored_frac" in ctx.notes[-1]
+
+
 def test_composite_needs_an_interval_table():
     tables = {k: v for k, v in vellantra().items() if k in ("collars", "surveys")}
     with pytest.raises(StepInputMissing, match=r"step 'composite' needs at least one interval"):

@@ -387,3 +387,14 @@ def test_all_upward_dips_warn_about_the_sign_convention():
     assert "every survey of hole VL-001 has a positive (upward) dip, e.g. 60 at surveys row 0" in (
         p.message
     )
+
+
+def test_duplicate_block_and_plant_period():
+    blocks = pd.DataFrame(
+        {"block_id": ["B1", "B1"], "x_m": [0.0, 10.0], "y_m": [0.0, 0.0], "z_m": [3000.0, 3000.0]}
+    )
+    limits = pd.DataFrame({"period": [1, 1], "days": [365, 366]})
+    problems = validate_tables({"blocks": blocks, "plant_limits": limits})
+    messages = [p.message for p in only(problems, "duplicate_key")]
+    assert "block_id B1 appears more than once in 'blocks' (blocks row 1)" in messages[0]
+    assert "period 1 appears more than once in 'plant_limits'" in messages[1]

@@ -8,9 +8,16 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+import geomet.run.steps.flags  # noqa: F401  (registers the step; other steps not imported)
 from geomet.errors import InputDataError, RecipeError
-from geomet.flags import DEFAULT_FLAG_RULES, FlagRule, flag_blocks, flag_level_codes, lookahead_table
-from geomet.run.registry import StepContext, load_steps
+from geomet.flags import (
+    DEFAULT_FLAG_RULES,
+    FlagRule,
+    flag_blocks,
+    flag_level_codes,
+    lookahead_table,
+)
+from geomet.run.registry import STEPS, StepContext
 
 CLAY = FlagRule("clay_total", "clay_total_pct", 15.0, 25.0)
 LOW_REC = FlagRule("low_recovery", "cu_recovery_frac", 0.85, 0.75, "below")
@@ -54,7 +61,8 @@ def test_flag_blocks(blocks):
         flag_blocks(blocks, [CLAY, FlagRule("sulfate", "sulfate_pct", 2.0, 5.0)])
     with pytest.raises(InputDataError, match="needs a block_id column"):
         flag_blocks(blocks.drop(columns="block_id"), [CLAY])
-    with pytest.raises(InputDataError, match=r"flag names must be unique; repeated: \['clay_total'\]"):
+    with pytest.raises(InputDataError,
+                       match=r"flag names must be unique; repeated: \['clay_total'\]"):
         flag_blocks(blocks, [CLAY, CLAY])
 
 
@@ -73,7 +81,8 @@ def test_lookahead_by_hand(blocks):
     assert alert["flagged_t"] == 400.0
     assert alert["flagged_share_frac"] == pytest.approx(400 / 900)
     p2 = look[(look["period"] == 2) & (look["level"] == "alert")].iloc[0]
-    assert p2["flagged_t"] == 0.0 and p2["n_blocks"] == 0
+    assert p2["flagged_t"] == 0.0
+    assert p2["n_blocks"] == 0
     near = lookahead_table(blocks, [CLAY], current_period=2, horizon_periods=0)
     assert near["period"].unique().tolist() == [2]
     with pytest.raises(InputDataError, match="horizon_periods must be >= 0"):
@@ -105,13 +114,14 @@ def test_lookahead_tonnes_bounded_and_alert_within_watch(values, seed):
     assert w.sum() == pytest.approx(b.loc[b["clay_total_pct"] >= 15.0, "tonnes_t"].sum())
 
 
-def test_flags_step_with_overrides(blocks):
-    step = load_steps()["flags"]
+def test_flags_step_with_overrides(blocks, tmp_path):
+    step = STEPS["flags"]
     opts = step.options(current_period=1, thresholds={"clay_total": {"watch": 25.0,
                                                                      "alert": 35.0}},
                         disabled=["hardness"])
-    ctx = StepContext(tables={"block_forecasts": blocks})
+    ctx = StepContext(tables={"block_forecasts": blocks}, plot_dir=tmp_path)
     out = step.func(ctx, opts)
+    assert (tmp_path / "flagged_tonnes_by_period.png").exists()
     clay = out["flagged_blocks"][out["flagged_blocks"]["flag"] == "clay_total"]
     assert sorted(clay["block_id"]) == [1, 4, 6]
     assert "hardness" not in set(out["lookahead"]["flag"])
@@ -120,11 +130,12 @@ def test_flags_step_with_overrides(blocks):
 
 
 def test_flags_step_option_errors(blocks):
-    step = load_steps()["flags"]
+    step = STEPS["flags"]
     ctx = StepContext(tables={"block_forecasts": blocks})
     with pytest.raises(RecipeError, match=r"disabled names unknown flags \['clay'\]"):
         step.func(ctx, step.options(disabled=["clay"]))
-    with pytest.raises(RecipeError, match=r"is a new flag and needs \['column', 'watch', 'alert'\]"):
+    with pytest.raises(RecipeError,
+                       match=r"is a new flag and needs \['column', 'watch', 'alert'\]"):
         step.func(ctx, step.options(thresholds={"arsenic": {}}))
     with pytest.raises(RecipeError, match="thresholds need alert >= watch"):
         step.func(ctx, step.options(thresholds={"clay_total": {"watch": 40.0}}))

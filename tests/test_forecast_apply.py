@@ -39,7 +39,8 @@ def test_all_columns_and_intervals_ordered(fitted):
         lo, mid, hi = (out[f"{col}_p10"], out[col], out[f"{col}_p90"])
         ok = lo.notna()
         assert ok.all(), col
-        assert (lo <= mid + 1e-9).all() and (mid <= hi + 1e-9).all(), col
+        assert (lo <= mid + 1e-9).all(), col
+        assert (mid <= hi + 1e-9).all(), col
     assert out["cu_recovery_frac"].between(0, 1).all()
     assert (out["throughput_clay_loss_tph"] >= 0).all()
     np.testing.assert_allclose(out["acid_kg_t"], out["acid_gangue_kg_t"] + out["acid_oxide_kg_t"])
@@ -88,7 +89,8 @@ def test_defaults_without_models_have_no_intervals():
 
 def test_missing_mineralogy_columns_named():
     df = synthetic_mineralogy(5).drop(columns=["clay_swelling_pct"])
-    with pytest.raises(InputDataError, match=r"blocks: forecasts need columns \['clay_swelling_pct'\]"):
+    with pytest.raises(InputDataError,
+                       match=r"blocks: forecasts need columns \['clay_swelling_pct'\]"):
         ap.forecast_columns(df, where="blocks")
 
 

@@ -90,8 +90,9 @@ def test_bond_error_against_stated_noise(demo):
     assert error < 0.5 * params["noise"]["bond_bwi_kwh_t_sd"]
 
 
-@pytest.mark.parametrize(("response", "sd_key"), [("cu_recovery_frac", "rougher_cu_recovery_pct_sd"),
-                                                  ("au_recovery_frac", "rougher_au_recovery_pct_sd")])
+@pytest.mark.parametrize(("response", "sd_key"),
+                         [("cu_recovery_frac", "rougher_cu_recovery_pct_sd"),
+                          ("au_recovery_frac", "rougher_au_recovery_pct_sd")])
 def test_recoveries_recover_truth(demo, response, sd_key):
     X, _, true, models, _, params = demo
     sd = params["noise"][sd_key] / 100.0

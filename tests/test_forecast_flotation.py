@@ -33,6 +33,9 @@ def test_klimpel_recovery():
     assert flot.klimpel_recovery(0.9, 0.0, 2.0) == 0.0  # limit kt -> 0
     np.testing.assert_allclose(flot.klimpel_recovery(0.9, np.array([0.5, 5.0]), 2.0),
                                [0.9 * math.exp(-1), 0.9 * (1 - (1 - math.exp(-10)) / 10)])
+    s = flot.klimpel_recovery(0.9, pd.Series([0.5], index=["q"]), 2.0)
+    assert list(s.index) == ["q"]
+    assert s["q"] == pytest.approx(0.9 * math.exp(-1))
 
 
 def test_n_cell_recovery_limits():

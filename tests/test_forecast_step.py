@@ -8,11 +8,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
+import geomet.run.steps.forecast  # noqa: F401  (registers the step; other steps not imported)
 from geomet.forecast import calibration as cal
 from geomet.forecast.apply import FORECAST_COLUMNS
 from geomet.forecast.inputs import resolve_inputs
 from geomet.forecast.synthetic import synthetic_mineralogy
-from geomet.run.registry import StepContext, load_steps
+from geomet.run.registry import STEPS, StepContext
 
 
 @pytest.fixture(scope="module")
@@ -42,7 +43,7 @@ def tables():
 
 @pytest.mark.parametrize("method", ["parametric", "none"])
 def test_forecast_step_outputs(tables, method, tmp_path):
-    step = load_steps()["forecast"]
+    step = STEPS["forecast"]
     assert step.needs == ("domained", "testwork")
     assert step.optional_needs == ("blocks_domained",)
     ctx = StepContext(tables=tables, plot_dir=tmp_path)
@@ -70,7 +71,7 @@ def test_forecast_step_outputs(tables, method, tmp_path):
 
 
 def test_forecast_step_without_blocks_uses_composites(tables):
-    step = load_steps()["forecast"]
+    step = STEPS["forecast"]
     ctx = StepContext(tables={k: v for k, v in tables.items() if k != "blocks_domained"})
     out = step.func(ctx, step.options())
     assert out["block_forecasts"].empty
@@ -81,7 +82,7 @@ def test_forecast_step_without_blocks_uses_composites(tables):
 def test_forecast_step_options_validated():
     from pydantic import ValidationError
 
-    options = load_steps()["forecast"].options
+    options = STEPS["forecast"].options
     with pytest.raises(ValidationError, match="calibration_method"):
         options(calibration_method="neural")
     with pytest.raises(ValidationError, match="Extra inputs are not permitted"):

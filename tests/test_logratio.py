@@ -154,6 +154,8 @@ def test_errors():
         closure([[1.0, -1.0, 2.0]])
     with pytest.raises(InputDataError, match="positive sum"):
         closure([[0.0, 0.0]])
+    with pytest.raises(InputDataError, match="positive sum to be closed"):
+        multiplicative_replacement([[0.0, 0.0, 0.0], [1.0, 0.0, 0.0]])
     with pytest.raises(InputDataError, match="too large"):
         multiplicative_replacement([[1.0, 0.0, 0.0]], delta=0.6)
     with pytest.raises(InputDataError, match="positive number"):

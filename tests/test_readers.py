@@ -354,3 +354,82 @@ def test_result_helpers(tmp_path):
     assert result.line_of(2) == 4
     assert result.line_of(99) is None
     assert result.line_of("x") is None
+
+
+def test_many_non_numeric_cells_are_summarised(tmp_path, monkeypatch):
+    monkeypatch.setattr(readers, "MAX_CELL_PROBLEMS_PER_COLUMN", 2)
+    rows = "".join(f"VL-001,{i},{i + 1},oops\n" for i in range(5))
+    result = read_table(
+        write(tmp_path, "a.csv", "hole_id,from_m,to_m,cu_pct\n" + rows), table="assays"
+    )
+    assert [p.line for p in result.problems] == [2, 3, 4]
+    summary = result.problems[-1]
+    assert summary.row is None
+    assert summary.message.startswith(
+        "cu_pct has 3 more values that are not numbers in a.csv (from line 4), e.g. 'oops'"
+    )
+
+
+def test_unknown_unit_names_file_and_column(tmp_path):
+    path = write(tmp_path, "a.csv", ASSAY_CSV)
+    with pytest.raises(
+        InputDataError,
+        match=r"units map for column au_gpt of a.csv: cannot "
+        r"convert unit 'furlong' to 'g/t'",
+    ):
+        read_table(path, table="assays", column_map=COLUMN_MAP, units={"au_gpt": "furlong"})
+
+
+def test_xlsx_sheet_index_out_of_range(tmp_path):
+    path = make_xlsx(tmp_path / "a.xlsx", [["hole_id"], ["V"]])
+    with pytest.raises(InputDataError, match=r"a.xlsx has 1 sheets; sheet 3 does not exist"):
+        read_table(path, table="assays", sheet=3)
+
+
+def test_below_detection_code_without_limit_warns(tmp_path):
+    text = "hole_id,from_m,to_m,zn_ppm\nVL-001,0,1,BDL\nVL-001,1,2,40\n"
+    result = read_table(write(tmp_path, "a.csv", text), table="assays")
+    (problem,) = result.problems
+    assert problem.rule == "unknown_detection_limit"
+    assert "a.csv column zn_ppm: a text code means 'below detection' but no detection limit" in (
+        problem.message
+    )
+
+
+def test_two_columns_mapped_to_one_name(tmp_path):
+    text = "hole_id,from_m,to_m,Cu,Copper\nVL-001,0,1,0.3,0.4\n"
+    result = read_table(
+        write(tmp_path, "a.csv", text),
+        table="assays",
+        column_map={"Cu": "cu_pct", "Copper": "cu_pct"},
+    )
+    (problem,) = result.problems
+    assert problem.message == (
+        "a.csv columns 'Cu' and 'Copper' both map to 'cu_pct'; only 'Cu' is used"
+    )
+    assert result.table["cu_pct"].tolist() == [0.3]
+
+
+def test_xml_entity_expansion_is_refused(tmp_path):
+    # "billion laughs": nested entities in the sheet XML; defusedxml refuses any entity
+    # declaration (defusedxml documentation), so the reader reports the file instead of expanding it
+    good = make_xlsx(tmp_path / "good.xlsx", [["hole_id", "from_m", "to_m"], ["V", 0, 1]])
+    bomb = (
+        '<?xml version="1.0"?><!DOCTYPE lolz [<!ENTITY lol "lol">'
+        '<!ENTITY lol2 "&lol;&lol;&lol;&lol;&lol;&lol;&lol;&lol;&lol;&lol;">]>'
+        '<worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main">'
+        '<sheetData><row r="1"><c r="A1" t="inlineStr"><is><t>&lol2;</t></is></c></row>'
+        "</sheetData></worksheet>"
+    )
+    path = tmp_path / "bomb.xlsx"
+    with zipfile.ZipFile(good) as src, zipfile.ZipFile(path, "w") as dst:
+        for info in src.infolist():
+            data = src.read(info.filename)
+            if info.filename == "xl/worksheets/sheet1.xml":
+                data = bomb.encode()
+            dst.writestr(info, data)
+    result = read_table(path, table="assays")
+    assert [p.rule for p in result.problems] == ["bad_workbook"]
+    message = result.problems[0].message
+    assert message.startswith("bomb.xlsx could not be opened as a workbook")
+    assert message.endswith("(cause: EntitiesForbidden)")

@@ -7,13 +7,13 @@ from typing import Literal
 
 import pytest
 from pydantic import BaseModel, Field
+from run_fixtures import write_recipe
 
 from geomet.errors import RecipeError
 from geomet.recipe import explain, load_recipe, parse_recipe, section_docs, validate_step_options
 from geomet.recipe.explain import allowed_values, toml_value, type_name
 from geomet.recipe.sections import DetectionSection, RunSection
 from geomet.run.registry import Step, StepOptions
-from run_fixtures import write_recipe
 
 
 class MillLimits(BaseModel):
@@ -32,8 +32,14 @@ def _plan(ctx, options):
 
 
 REGISTRY = {
-    "plan_test": Step(name="plan_test", func=_plan, options=PlanOptions, needs=("blocks",),
-                      produces={"plan_table": "A plan."}, summary="Plan the feed."),
+    "plan_test": Step(
+        name="plan_test",
+        func=_plan,
+        options=PlanOptions,
+        needs=("blocks",),
+        produces={"plan_table": "A plan."},
+        summary="Plan the feed.",
+    ),
 }
 
 
@@ -45,7 +51,9 @@ def test_typed_options_and_defaults(tmp_path):
     (tmp_path / "blocks.csv").write_text("block_id\nB1\n")
     recipe = parse(
         '[run]\nsteps = ["plan_test"]\nseed = 4\n[inputs.blocks]\npath = "blocks.csv"\n'
-        "[plan_test]\nperiods = 3\nmill.clay_max_pct = 4.5\n", tmp_path)
+        "[plan_test]\nperiods = 3\nmill.clay_max_pct = 4.5\n",
+        tmp_path,
+    )
     opts = recipe.options["plan_test"]
     assert isinstance(opts, PlanOptions)
     assert opts.periods == 3
@@ -104,25 +112,34 @@ solver = "cplex"
 
 
 def test_unknown_step_in_run_steps_is_named_with_suggestion(tmp_path):
-    with pytest.raises(RecipeError, match=r"run\.steps: unknown step 'plan_tst'; did you mean "
-                                          r"'plan_test'\? \(see `geomet steps`\)"):
+    with pytest.raises(
+        RecipeError,
+        match=r"run\.steps: unknown step 'plan_tst'; did you mean "
+        r"'plan_test'\? \(see `geomet steps`\)",
+    ):
         parse('[run]\nsteps = ["plan_tst"]\n', tmp_path)
 
 
 def test_repeated_step_and_bad_workbook_name(tmp_path):
     with pytest.raises(RecipeError) as info:
         parse('[run]\nsteps = ["plan_test", "plan_test"]\nworkbook = "out/r.xls"\n', tmp_path)
-    assert "run.steps: got ['plan_test', 'plan_test']; each step may be listed once; repeated: " \
-           "plan_test" in str(info.value)
-    assert "run.workbook: got 'out/r.xls'; expected a plain file name ending in .xlsx" in \
-           str(info.value)
+    assert (
+        "run.steps: got ['plan_test', 'plan_test']; each step may be listed once; repeated: "
+        "plan_test" in str(info.value)
+    )
+    assert "run.workbook: got 'out/r.xls'; expected a plain file name ending in .xlsx" in str(
+        info.value
+    )
 
 
 def test_missing_input_file_is_named_with_similar_files(tmp_path):
     (tmp_path / "blocks.csv").write_text("block_id\nB1\n")
-    with pytest.raises(RecipeError, match=r"inputs\.blocks\.path: file not found: 'block.csv' "
-                                          r"\(looked for .*block\.csv\); files there with similar "
-                                          r"names: blocks\.csv"):
+    with pytest.raises(
+        RecipeError,
+        match=r"inputs\.blocks\.path: file not found: 'block.csv' "
+        r"\(looked for .*block\.csv\); files there with similar "
+        r"names: blocks\.csv",
+    ):
         parse('[run]\nsteps = ["plan_test"]\n[inputs.blocks]\npath = "block.csv"\n', tmp_path)
 
 
@@ -172,8 +189,11 @@ def test_load_recipe_with_registered_steps(tmp_path):
 
 def test_model_level_error_has_no_value_dump(tmp_path):
     path = write_recipe(tmp_path, extra='method = "by_category"\n')
-    with pytest.raises(RecipeError, match=r"  - composite: composite method 'by_category' needs "
-                                          r"category_column"):
+    with pytest.raises(
+        RecipeError,
+        match=r"  - composite: composite method 'by_category' needs "
+        r"category_column",
+    ):
         load_recipe(path)
 
 
@@ -181,16 +201,27 @@ def test_validate_step_options_for_the_python_api():
     opts = validate_step_options({"plan_test": {"periods": 2}}, ["plan_test"], registry=REGISTRY)
     assert opts["plan_test"].periods == 2
     ready = PlanOptions(periods=5)
-    assert validate_step_options({"plan_test": ready}, ["plan_test"],
-                                 registry=REGISTRY)["plan_test"] is ready
-    with pytest.raises(RecipeError, match=r"plan_test\.periods: got 0; input should be greater "
-                                          r"than or equal to 1"):
+    assert (
+        validate_step_options({"plan_test": ready}, ["plan_test"], registry=REGISTRY)["plan_test"]
+        is ready
+    )
+    with pytest.raises(
+        RecipeError,
+        match=r"plan_test\.periods: got 0; input should be greater "
+        r"than or equal to 1",
+    ):
         validate_step_options({"plan_test": {"periods": 0}}, ["plan_test"], registry=REGISTRY)
-    with pytest.raises(RecipeError, match=r"plan_tes: unknown step 'plan_tes'; did you mean "
-                                          r"'plan_test'\?"):
+    with pytest.raises(
+        RecipeError,
+        match=r"plan_tes: unknown step 'plan_tes'; did you mean "
+        r"'plan_test'\?",
+    ):
         validate_step_options({"plan_tes": {}}, ["plan_test"], registry=REGISTRY)
-    with pytest.raises(RecipeError, match=r"plan_test: expected a dict of options or a "
-                                          r"PlanOptions; got 3"):
+    with pytest.raises(
+        RecipeError,
+        match=r"plan_test: expected a dict of options or a "
+        r"PlanOptions; got 3",
+    ):
         validate_step_options({"plan_test": 3}, ["plan_test"], registry=REGISTRY)
 
 
@@ -231,11 +262,17 @@ def test_explain_text_and_narrowing():
 
 
 def test_explain_unknown_section_and_key():
-    with pytest.raises(RecipeError, match=r"unknown recipe section 'detektion'; did you mean "
-                                          r"'detection'\?; sections: run, inputs, detection"):
+    with pytest.raises(
+        RecipeError,
+        match=r"unknown recipe section 'detektion'; did you mean "
+        r"'detection'\?; sections: run, inputs, detection",
+    ):
         section_docs("detektion", registry=REGISTRY)
-    with pytest.raises(RecipeError, match=r"section \[plan_test\] has no option "
-                                          r"'plan_test.perods'; did you mean 'plan_test.periods'"):
+    with pytest.raises(
+        RecipeError,
+        match=r"section \[plan_test\] has no option "
+        r"'plan_test.perods'; did you mean 'plan_test.periods'",
+    ):
         section_docs("plan_test.perods", registry=REGISTRY)
 
 
@@ -251,10 +288,17 @@ def test_explain_covers_registered_steps():
 
 @pytest.mark.parametrize(
     ("annotation", "expected"),
-    [(int, "integer"), (float, "number"), (bool, "true/false"), (str, "text"),
-     (list[str], "list of text"), (dict[str, float], "table text -> number"),
-     (str | None, "text (optional)"), (Literal["a", "b"], "text"),
-     (tuple[float, ...], "list of number")],
+    [
+        (int, "integer"),
+        (float, "number"),
+        (bool, "true/false"),
+        (str, "text"),
+        (list[str], "list of text"),
+        (dict[str, float], "table text -> number"),
+        (str | None, "text (optional)"),
+        (Literal["a", "b"], "text"),
+        (tuple[float, ...], "list of number"),
+    ],
 )
 def test_type_names(annotation, expected):
     assert type_name(annotation) == expected
@@ -266,7 +310,53 @@ def test_toml_values_and_allowed():
     assert toml_value("a b") == '"a b"'
     assert toml_value([1, "x"]) == '[1, "x"]'
     assert toml_value({"Cu_%": "cu_pct"}) == '{ "Cu_%" = "cu_pct" }'
-    assert tomllib.loads("x = " + toml_value({"Cu_%": "cu_pct", "a": [1.5, True]})) == \
-        {"x": {"Cu_%": "cu_pct", "a": [1.5, True]}}
-    assert allowed_values(dict[str, Literal["below_detection", "missing"]] | None) == \
-        ('"below_detection"', '"missing"')
+    assert tomllib.loads("x = " + toml_value({"Cu_%": "cu_pct", "a": [1.5, True]})) == {
+        "x": {"Cu_%": "cu_pct", "a": [1.5, True]}
+    }
+    assert allowed_values(dict[str, Literal["below_detection", "missing"]] | None) == (
+        '"below_detection"',
+        '"missing"',
+    )
+
+
+class Threshold(BaseModel):
+    model_config = {"extra": "forbid"}
+    alert: float = Field(5.0, description="Alert level.")
+
+
+class Scenario(BaseModel):
+    model_config = {"extra": "forbid"}
+    name: str = Field(..., min_length=1, description="Scenario name.")
+
+
+class WatchOptions(StepOptions):
+    thresholds: dict[str, Threshold] = Field(default_factory=dict, description="By flag.")
+    scenarios: list[Scenario] = Field(default_factory=list, description="Variants.")
+
+
+WATCH = {
+    "watch_test": Step(
+        name="watch_test", func=_plan, options=WatchOptions, needs=(), produces={}, summary="Watch."
+    ),
+}
+
+
+def test_models_inside_tables_and_lists_are_explained_and_checked(tmp_path):
+    docs = {o.key: o for o in section_docs("watch_test", registry=WATCH)[0].options}
+    assert docs["watch_test.thresholds"].type == "table text -> section"
+    assert docs["watch_test.thresholds.<name>.alert"].default == "5.0"
+    assert docs["watch_test.scenarios[].name"].limits == "at least 1 character(s)"
+    assert [o.key for o in section_docs("watch_test.scenarios", registry=WATCH)[0].options] == [
+        "watch_test.scenarios",
+        "watch_test.scenarios[].name",
+    ]
+    text = (
+        '[run]\nsteps = ["watch_test"]\n[watch_test.thresholds.clay]\nalret = 3\n'
+        '[[watch_test.scenarios]]\nnmae = "x"\n'
+    )
+    with pytest.raises(RecipeError) as info:
+        parse(text, tmp_path, registry=WATCH)
+    message = str(info.value)
+    assert "watch_test.thresholds.clay.alret: unknown key; did you mean 'alert'?" in message
+    assert "watch_test.scenarios.0.nmae: unknown key; did you mean 'name'?" in message
+    assert "watch_test.scenarios.0.name: required, but not given" in message

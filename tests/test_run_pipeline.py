@@ -1,4 +1,4 @@
-"""The run pipeline: step order, missing inputs, tables in and out, the output folder and its safety."""
+"""The run pipeline: step order, missing inputs, tables in and out, the output folder."""
 
 from __future__ import annotations
 
@@ -11,12 +11,12 @@ import numpy as np
 import pandas as pd
 import pytest
 from pydantic import Field
+from run_fixtures import lab_assays, write_recipe
 
 from geomet.errors import GeometError, RecipeError, StepInputMissing
 from geomet.run import registry as reg
 from geomet.run.pipeline import check_step_inputs, order_steps, run_recipe, run_steps
 from geomet.run.registry import Step, StepOptions
-from run_fixtures import lab_assays, write_recipe
 
 matplotlib.use("Agg")
 
@@ -29,11 +29,27 @@ def _noop(ctx, options):
     return {}
 
 
-def make_step(name, func=_noop, *, needs=(), produces=None, optional_needs=(), order=100,
-              options=StepOptions, summary=""):
-    return Step(name=name, func=func, options=options, needs=tuple(needs),
-                produces=dict(produces or {}), optional_needs=tuple(optional_needs),
-                summary=summary or f"The {name} step.", order=order)
+def make_step(
+    name,
+    func=_noop,
+    *,
+    needs=(),
+    produces=None,
+    optional_needs=(),
+    order=100,
+    options=StepOptions,
+    summary="",
+):
+    return Step(
+        name=name,
+        func=func,
+        options=options,
+        needs=tuple(needs),
+        produces=dict(produces or {}),
+        optional_needs=tuple(optional_needs),
+        summary=summary or f"The {name} step.",
+        order=order,
+    )
 
 
 @pytest.fixture
@@ -84,8 +100,11 @@ def test_order_refuses_unknown_steps_and_cycles():
         "a": make_step("a", needs=["t_b"], produces={"t_a": ""}),
         "b": make_step("b", needs=["t_a"], produces={"t_b": ""}),
     }
-    with pytest.raises(RecipeError, match=r"unknown step 'aa'; did you mean 'a'\?; registered "
-                                          r"steps: a, b"):
+    with pytest.raises(
+        RecipeError,
+        match=r"unknown step 'aa'; did you mean 'a'\?; registered "
+        r"steps: a, b",
+    ):
         order_steps(["aa"], registry)
     with pytest.raises(RecipeError, match=r"steps a, b need each other's tables"):
         order_steps(["a", "b"], registry)
@@ -94,19 +113,23 @@ def test_order_refuses_unknown_steps_and_cycles():
 def test_missing_table_says_which_input_or_step_provides_it():
     registry = {
         "domains": make_step("domains", needs=["mineralogy", "site_plan"], produces={"dom": ""}),
-        "mineralogy": make_step("mineralogy", needs=["composites"],
-                                produces={"mineralogy": ""}),
+        "mineralogy": make_step("mineralogy", needs=["composites"], produces={"mineralogy": ""}),
     }
     ordered = order_steps(["domains"], registry)
     with pytest.raises(StepInputMissing) as info:
         check_step_inputs(ordered, [], registry)
     message = str(info.value)
-    assert "step 'domains' needs table 'mineralogy'; it is produced by step 'mineralogy': add " \
-           "'mineralogy' to run.steps" in message
-    assert "step 'domains' needs table 'site_plan'; no step produces it: give it as an input " \
-           "([inputs.site_plan] with path = ...)" in message
-    check_step_inputs(order_steps(["mineralogy", "domains"], registry),
-                      ["composites", "site_plan"], registry)
+    assert (
+        "step 'domains' needs table 'mineralogy'; it is produced by step 'mineralogy': add "
+        "'mineralogy' to run.steps" in message
+    )
+    assert (
+        "step 'domains' needs table 'site_plan'; no step produces it: give it as an input "
+        "([inputs.site_plan] with path = ...)" in message
+    )
+    check_step_inputs(
+        order_steps(["mineralogy", "domains"], registry), ["composites", "site_plan"], registry
+    )
 
 
 # --- run_steps -----------------------------------------------------------------------------------
@@ -125,13 +148,20 @@ def test_run_steps_tables_in_tables_out(steps):
         warnings.warn("scaled copper", UserWarning, stacklevel=1)
         return {"scaled": out}
 
-    steps(make_step("clean_test", clean, needs=["assays"], produces={"report": "Report."},
-                    order=10),
-          make_step("scale_test", scale, needs=["assays"], produces={"scaled": "Scaled."},
-                    options=ScaleOptions))
+    steps(
+        make_step("clean_test", clean, needs=["assays"], produces={"report": "Report."}, order=10),
+        make_step(
+            "scale_test",
+            scale,
+            needs=["assays"],
+            produces={"scaled": "Scaled."},
+            options=ScaleOptions,
+        ),
+    )
     assays = pd.DataFrame({"hole_id": ["A", "A", "B"], "cu_pct": [0.1, 0.2, 0.3]})
-    result = run_steps({"assays": assays}, ["scale_test", "clean_test"],
-                       {"scale_test": {"factor": 3}}, seed=5)
+    result = run_steps(
+        {"assays": assays}, ["scale_test", "clean_test"], {"scale_test": {"factor": 3}}, seed=5
+    )
     assert [r.name for r in result.steps] == ["clean_test", "scale_test"]
     assert seen == {"rows": 2, "seed": 5}  # the cleaned assays replaced the input
     assert list(result.outputs) == ["report", "scaled"]
@@ -148,20 +178,28 @@ def test_run_steps_tables_in_tables_out(steps):
 
 
 def test_run_steps_validates_options_and_inputs(steps):
-    steps(make_step("scale_test", needs=["assays"], produces={"scaled": ""},
-                    options=ScaleOptions))
-    with pytest.raises(RecipeError, match=r"scale_test\.factor: got -1; input should be "
-                                          r"greater than 0"):
+    steps(make_step("scale_test", needs=["assays"], produces={"scaled": ""}, options=ScaleOptions))
+    with pytest.raises(
+        RecipeError,
+        match=r"scale_test\.factor: got -1; input should be "
+        r"greater than 0",
+    ):
         run_steps({"assays": pd.DataFrame()}, ["scale_test"], {"scale_test": {"factor": -1}})
-    with pytest.raises(StepInputMissing, match=r"step 'scale_test' needs table 'assays'; no "
-                                               r"step produces it"):
+    with pytest.raises(
+        StepInputMissing,
+        match=r"step 'scale_test' needs table 'assays'; no "
+        r"step produces it",
+    ):
         run_steps({}, ["scale_test"])
 
 
 def test_step_returning_wrong_type_is_named(steps):
     steps(make_step("bad_test", lambda ctx, o: [1, 2]))
-    with pytest.raises(GeometError, match=r"step 'bad_test' returned list; a step must return a "
-                                          r"dict of table name -> pandas DataFrame"):
+    with pytest.raises(
+        GeometError,
+        match=r"step 'bad_test' returned list; a step must return a "
+        r"dict of table name -> pandas DataFrame",
+    ):
         run_steps({}, ["bad_test"])
 
 
@@ -176,10 +214,12 @@ def test_step_bug_keeps_its_traceback_with_step_name(steps):
 
 
 def test_declared_table_not_returned_fails_the_step_that_needs_it(steps, caplog):
-    steps(make_step("lazy_test", produces={"t_lazy": ""}),
-          make_step("user_test", needs=["t_lazy"]))
-    with pytest.raises(StepInputMissing, match=r"step 'user_test' needs table 't_lazy', which an "
-                                               r"earlier step declared but did not return"):
+    steps(make_step("lazy_test", produces={"t_lazy": ""}), make_step("user_test", needs=["t_lazy"]))
+    with pytest.raises(
+        StepInputMissing,
+        match=r"step 'user_test' needs table 't_lazy', which an "
+        r"earlier step declared but did not return",
+    ):
         run_steps({}, ["user_test", "lazy_test"])
     assert "step lazy_test did not return its table 't_lazy'" in caplog.text
 
@@ -192,35 +232,52 @@ def _plot_step(ctx, options):
     fig, ax = plt.subplots(figsize=(3, 2))
     ax.plot(comps["cu_pct"].to_numpy())
     ctx.add_plot("cu_downhole", fig, "Copper by composite", table="cu_summary")
-    ctx.extras.setdefault("json_files", {})["cu_model"] = {"mean_cu_pct": float(
-        comps["cu_pct"].mean()), "missing": float("nan")}
+    ctx.extras.setdefault("json_files", {})["cu_model"] = {
+        "mean_cu_pct": float(comps["cu_pct"].mean()),
+        "missing": float("nan"),
+    }
     summary = comps.groupby("hole_id", as_index=False)["cu_pct"].mean()
     return {"cu_summary": summary}
 
 
 @pytest.fixture
 def plot_step(steps):
-    steps(make_step("summary_test", _plot_step, needs=["composites"],
-                    produces={"cu_summary": "Mean copper by hole."}))
+    steps(
+        make_step(
+            "summary_test",
+            _plot_step,
+            needs=["composites"],
+            produces={"cu_summary": "Mean copper by hole."},
+        )
+    )
 
 
 def test_run_recipe_writes_a_complete_output_folder(tmp_path, plot_step):
-    recipe = write_recipe(tmp_path, steps=("check", "composite", "summary_test"),
-                          table_format="both")
+    recipe = write_recipe(
+        tmp_path, steps=("check", "composite", "summary_test"), table_format="both"
+    )
     inputs_before = tree_hashes(tmp_path / "data")
     result = run_recipe(recipe, show_progress=False)
     out = tmp_path / "out"
     assert result.out_dir == out.resolve()
     names = {p.name for p in out.iterdir()}
-    assert {"vellantra_test.xlsx", "tables", "plots", "models", "run.log", "test.toml",
-            "provenance.json"} <= names
+    assert {
+        "vellantra_test.xlsx",
+        "tables",
+        "plots",
+        "models",
+        "run.log",
+        "test.toml",
+        "provenance.json",
+    } <= names
     assert not list(tmp_path.glob(".out.*"))  # no temporary folder left behind
     for table in ("validation_report", "composites", "cu_summary"):
         assert (out / "tables" / f"{table}.csv").is_file()
         assert (out / "tables" / f"{table}.parquet").is_file()
     csv = pd.read_csv(out / "tables" / "composites.csv")
-    pd.testing.assert_frame_equal(csv, result["composites"].reset_index(drop=True),
-                                  check_dtype=False)
+    pd.testing.assert_frame_equal(
+        csv, result["composites"].reset_index(drop=True), check_dtype=False
+    )
     parquet = pd.read_parquet(out / "tables" / "cu_summary.parquet")
     np.testing.assert_allclose(parquet["cu_pct"], result["cu_summary"]["cu_pct"])
     assert not (out / "tables" / "assays.csv").exists()  # inputs are not products
@@ -231,8 +288,12 @@ def test_run_recipe_writes_a_complete_output_folder(tmp_path, plot_step):
     assert model["mean_cu_pct"] == pytest.approx(result["composites"]["cu_pct"].mean())
     assert (out / "test.toml").read_text() == recipe.read_text()
     log = (out / "run.log").read_text()
-    for text in ("step 1/3 check: started", "step composite: finished in",
-                 "composite: 14 composites", "run finished: 3 tables, 1 plots"):
+    for text in (
+        "step 1/3 check: started",
+        "step composite: finished in",
+        "composite: 14 composites",
+        "run finished: 3 tables, 1 plots",
+    ):
         assert text in log
     assert tree_hashes(tmp_path / "data") == inputs_before
 
@@ -266,7 +327,8 @@ def test_provenance_records_versions_hashes_and_options(tmp_path):
     assert prov["parameters"]["detection"]["rule"] == "half_limit"
     assert prov["packages"]["pandas"] == pd.__version__
     assert prov["python"].count(".") == 2
-    assert prov["started_utc"].endswith("Z") and prov["finished_utc"].endswith("Z")
+    assert prov["started_utc"].endswith("Z")
+    assert prov["finished_utc"].endswith("Z")
 
 
 def test_same_recipe_same_bytes(tmp_path, plot_step):
@@ -274,9 +336,11 @@ def test_same_recipe_same_bytes(tmp_path, plot_step):
     run_recipe(recipe, out=tmp_path / "run1", show_progress=False)
     run_recipe(recipe, out=tmp_path / "run2", show_progress=False)
     first = tree_hashes(tmp_path / "run1" / "tables")
-    assert first and first == tree_hashes(tmp_path / "run2" / "tables")
-    assert sha(tmp_path / "run1" / "models" / "cu_model.json") == \
-        sha(tmp_path / "run2" / "models" / "cu_model.json")
+    assert first
+    assert first == tree_hashes(tmp_path / "run2" / "tables")
+    assert sha(tmp_path / "run1" / "models" / "cu_model.json") == sha(
+        tmp_path / "run2" / "models" / "cu_model.json"
+    )
 
 
 def test_failed_run_leaves_old_output_and_inputs_as_they_were(tmp_path, steps, plot_step):
@@ -320,12 +384,18 @@ def test_output_folder_safety(tmp_path):
     foreign = tmp_path / "notes"
     foreign.mkdir()
     (foreign / "mine_plan.docx").write_text("not geomet's")
-    with pytest.raises(RecipeError, match=r"output folder .*notes already exists and was not "
-                                          r"written by geomet \(no provenance\.json\)"):
+    with pytest.raises(
+        RecipeError,
+        match=r"output folder .*notes already exists and was not "
+        r"written by geomet \(no provenance\.json\)",
+    ):
         run_recipe(recipe, out=foreign, show_progress=False)
     assert (foreign / "mine_plan.docx").read_text() == "not geomet's"
-    with pytest.raises(RecipeError, match=r"output folder .*data contains the input "
-                                          r"(collars|surveys|assays)\.csv"):
+    with pytest.raises(
+        RecipeError,
+        match=r"output folder .*data contains the input "
+        r"(collars|surveys|assays)\.csv",
+    ):
         run_recipe(recipe, out=tmp_path / "data", show_progress=False)
     with pytest.raises(RecipeError, match=r"output folder .* contains the input"):
         run_recipe(recipe, out=tmp_path, show_progress=False)
@@ -342,3 +412,63 @@ def test_existing_geomet_output_is_replaced(tmp_path):
     run_recipe(recipe, show_progress=False)
     assert not stale.exists()
     assert (tmp_path / "out" / "tables" / "composites.csv").is_file()
+
+
+def test_model_names_must_be_plain_file_names(tmp_path, steps):
+    def sneaky(ctx, options):
+        ctx.extras.setdefault("json_files", {})["../../escaped"] = {"a": 1}
+        return {}
+
+    steps(make_step("sneaky_test", sneaky))
+    recipe = write_recipe(tmp_path, steps=("check", "sneaky_test"))
+    with pytest.raises(
+        GeometError,
+        match=r"a step asked to save model '\.\./\.\./escaped'; model "
+        r"names must be plain file names",
+    ):
+        run_recipe(recipe, show_progress=False)
+    assert not (tmp_path.parent / "escaped.json").exists()
+    assert not (tmp_path / "out").exists()
+
+
+def test_options_of_steps_not_run_are_logged(tmp_path, caplog):
+    import logging
+
+    recipe = write_recipe(tmp_path, steps=("check",))
+    with caplog.at_level(logging.INFO, logger="geomet.run"):
+        run_recipe(recipe, show_progress=False)
+    assert "options given for steps not run this time: composite" in caplog.text
+
+
+def test_detection_section_reaches_the_reader(tmp_path):
+    from geomet.recipe import load_recipe
+    from geomet.run.pipeline import detection_rule, run_loaded_recipe
+
+    recipe_path = write_recipe(tmp_path, extra='[detection]\nrule = "fraction"\nfraction = 0.25\n')
+    raw = lab_assays().astype({"Cu_%": object})
+    raw.loc[0, "Cu_%"] = "<0.04"
+    raw.to_csv(tmp_path / "data" / "assays.csv", index=False)
+    recipe = load_recipe(recipe_path)
+    rule = detection_rule(recipe)
+    assert (rule.rule, rule.fraction) == ("fraction", 0.25)
+    result = run_loaded_recipe(recipe, steps=[])
+    assays = result.tables["assays"]
+    # Substitution by a fraction of the detection limit: 0.25 x 0.04 = 0.01 (the rule's definition).
+    assert assays.loc[0, "cu_pct"] == pytest.approx(0.01)
+    assert bool(assays.loc[0, "cu_pct_censored"])
+    assert result.extras["sources"]["assays"].file.endswith("assays.csv")
+    assert [r["table"] for r in result.provenance["inputs"]] == ["collars", "surveys", "assays"]
+
+
+def test_progress_flag_reaches_the_steps(steps):
+    seen = []
+
+    def look(ctx, options):
+        seen.append(ctx.show_progress)
+        seen.append(list(ctx.progress(range(3), "counting")))
+        return {}
+
+    steps(make_step("look_test", look))
+    run_steps({}, ["look_test"], show_progress=True)
+    run_steps({}, ["look_test"])
+    assert seen == [True, [0, 1, 2], False, [0, 1, 2]]

@@ -182,7 +182,9 @@ def test_format_helpers():
     assert format_tonnes(3.5e5) == "350 kt"
     assert format_tonnes(900) == "900 t"
     assert describe_periods([1, 2, 3, 4], [1, 1, 1, 1]) == "periods 1-4"
-    assert describe_periods([1, 2, 3, 4], [10, 1, 1, 1]) == "periods 1-4, mostly period 1"
+    assert describe_periods([1, 2, 3, 4], [10, 1, 1, 1]) == "periods 1-4, mostly 1"
+    assert describe_periods([1, 2, 5, 6], [2, 10, 10, 2]) == "periods 1-6, mostly 2, 5"
+    assert describe_periods([3, 3], [1, 1]) == "period 3"
 
 
 def test_coverage_perfect_samples_and_wasserstein_reference():

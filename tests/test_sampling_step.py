@@ -183,10 +183,12 @@ def test_grid_aggregation_and_block_variability(tables):
         tables["testwork"],
         n_samples=6,
         attributes=["cu_pct", "clay_swelling_pct", "bond_bwi_kwh_t"],
+        heuristic_starts=2,
         aggregation="grid",
         variability_source="blocks",
         max_demand_points=30,
         attribute_weights={"clay_swelling_pct": 2.0},
+        milp_max_pairs=0,
         seed=1,
     )
     assert len(plan.selection) == 6
@@ -199,3 +201,50 @@ def test_grid_aggregation_and_block_variability(tables):
             attributes=["cu_pct"],
             variability_source="core",
         )
+
+
+def test_blocks_without_periods_are_all_scheduled(tables):
+    blocks = tables["block_forecasts"].drop(columns="period")
+    plan = plan_testwork(
+        tables["composite_forecasts"],
+        blocks,
+        n_samples=4,
+        attributes=["cu_pct", "au_gpt"],
+        max_demand_points=30,
+        milp_max_pairs=0,
+    )
+    assert "every block counts as scheduled" in plan.notes[0]
+    assert plan.allocation["scheduled_tonnes_t"].sum() == pytest.approx(blocks["tonnes_t"].sum())
+    assert (plan.selection["periods"] == "").all()
+    assert not plan.selection["reason"].str.contains("period").any()
+
+
+def test_composites_without_density_are_noted(tables):
+    comp = tables["composite_forecasts"].copy()
+    comp.loc[comp.index[:5], "density_t_m3"] = np.nan
+    plan = plan_testwork(
+        comp,
+        tables["block_forecasts"],
+        n_samples=3,
+        attributes=["cu_pct"],
+        max_demand_points=20,
+        milp_max_pairs=0,
+    )
+    assert any("5 composite(s) have no density_t_m3" in n for n in plan.notes)
+    assert not (
+        (plan.candidates["hole_id"] == comp["hole_id"].iloc[0])
+        & (plan.candidates["from_m"] < comp["to_m"].iloc[4])
+    ).any()
+
+
+def test_same_seed_same_selection(tables):
+    kw = {
+        "n_samples": 5,
+        "attributes": ["cu_pct", "clay_swelling_pct"],
+        "max_demand_points": 25,
+        "milp_max_pairs": 0,
+        "seed": 11,
+    }
+    a = plan_testwork(tables["composite_forecasts"], tables["block_forecasts"], **kw)
+    b = plan_testwork(tables["composite_forecasts"], tables["block_forecasts"], **kw)
+    pd.testing.assert_frame_equal(a.selection, b.selection)

@@ -22,6 +22,7 @@ from geomet.io.workbook import (
     GUIDE_SHEET,
     PLOTS_SHEET,
     RECIPE_SHEET,
+    column_description,
     column_unit,
     number_format,
     sheet_title,
@@ -36,38 +37,64 @@ matplotlib.use("Agg")
 
 def composites(n=12) -> pd.DataFrame:
     rng = np.random.default_rng(3)
-    frame = pd.DataFrame({
-        "hole_id": [f"VL-{i // 4:03d}" for i in range(n)],
-        "from_m": np.arange(n) % 4 * 2.0,
-        "to_m": np.arange(n) % 4 * 2.0 + 2.0,
-        "cu_pct": rng.uniform(0.1, 0.9, n).round(4),
-        "au_gpt": rng.uniform(0.05, 0.6, n),
-        "clay_severity_idx": rng.uniform(0, 12, n),
-        "tonnes_t": rng.integers(1000, 90000, n),
-        "cu_recovery_frac_p10": rng.uniform(0.6, 0.8, n),
-        "cu_pct_censored": rng.random(n) < 0.2,
-        "lith_code": rng.choice(["PQP", "AND", "BXH"], n),
-    })
+    frame = pd.DataFrame(
+        {
+            "hole_id": [f"VL-{i // 4:03d}" for i in range(n)],
+            "from_m": np.arange(n) % 4 * 2.0,
+            "to_m": np.arange(n) % 4 * 2.0 + 2.0,
+            "cu_pct": rng.uniform(0.1, 0.9, n).round(4),
+            "au_gpt": rng.uniform(0.05, 0.6, n),
+            "clay_severity_idx": rng.uniform(0, 12, n),
+            "tonnes_t": rng.integers(1000, 90000, n),
+            "cu_recovery_frac_p10": rng.uniform(0.6, 0.8, n),
+            "cu_pct_censored": rng.random(n) < 0.2,
+            "lith_code": rng.choice(["PQP", "AND", "BXH"], n),
+        }
+    )
     frame.loc[3, "au_gpt"] = np.nan
     return frame
 
 
 def result_with(tables: dict, produced: dict | None = None, plots=(), **kw) -> RunResult:
     produced = produced or {name: f"The {name} table." for name in tables}
-    steps = [StepRecord("composite", "Composite intervals downhole.", 0.25, list(produced), [],
-                        ["composite: 12 composites"])]
+    steps = [
+        StepRecord(
+            "composite",
+            "Composite intervals downhole.",
+            0.25,
+            list(produced),
+            [],
+            ["composite: 12 composites"],
+        )
+    ]
     provenance = {
-        "geomet_version": "0.1.0", "started_utc": "2026-01-05T10:00:00Z",
-        "finished_utc": "2026-01-05T10:00:03Z", "seed": 7, "steps": ["composite"],
-        "parameters": {"run": {"title": "Vellantra pit shell 4"},
-                       "composite": {"length_m": 2.0, "method": "fixed_length"}},
-        "packages": {"pandas": pd.__version__}, "python": "3.11.0",
+        "geomet_version": "0.1.0",
+        "started_utc": "2026-01-05T10:00:00Z",
+        "finished_utc": "2026-01-05T10:00:03Z",
+        "seed": 7,
+        "steps": ["composite"],
+        "parameters": {
+            "run": {"title": "Vellantra pit shell 4"},
+            "composite": {"length_m": 2.0, "method": "fixed_length"},
+        },
+        "packages": {"pandas": pd.__version__},
+        "python": "3.11.0",
         "inputs": [{"table": "assays", "file": "assays.csv", "sha256": "ab" * 32, "rows": 12}],
-        "recipe": {"file": "vellantra.toml", "sha256": "cd" * 32,
-                   "text": '[run]\nsteps = ["composite"]\n'},
+        "recipe": {
+            "file": "vellantra.toml",
+            "sha256": "cd" * 32,
+            "text": '[run]\nsteps = ["composite"]\n',
+        },
     }
-    return RunResult(tables=dict(tables), produced=produced, plots=list(plots), steps=steps,
-                     notes=["composite: 12 composites"], provenance=provenance, **kw)
+    return RunResult(
+        tables=dict(tables),
+        produced=produced,
+        plots=list(plots),
+        steps=steps,
+        notes=["composite: 12 composites"],
+        provenance=provenance,
+        **kw,
+    )
 
 
 @pytest.fixture
@@ -81,8 +108,7 @@ def book(tmp_path):
 def test_sheets_in_order(book):
     path, _ = book
     wb = openpyxl.load_workbook(path)
-    assert wb.sheetnames == [ABOUT_SHEET, "Composites", "Domain summary", GUIDE_SHEET,
-                             RECIPE_SHEET]
+    assert wb.sheetnames == [ABOUT_SHEET, "Composites", "Domain summary", GUIDE_SHEET, RECIPE_SHEET]
 
 
 def test_headers_units_and_values_equal_the_table(book):
@@ -135,11 +161,22 @@ def test_about_sheet_explains_the_run(book):
     ws = openpyxl.load_workbook(path)[ABOUT_SHEET]
     text = "\n".join(str(v) for row in ws.iter_rows(values_only=True) for v in row if v)
     assert ws["A1"].value == "Vellantra pit shell 4"
-    for part in ("What this run did", "composite", "Composite intervals downhole.",
-                 "composite: 12 composites", "Cautions", *CAUTIONS, "Provenance",
-                 "ab" * 32, "cd" * 32, "composite.length_m", "Seed"):
+    for part in (
+        "What this run did",
+        "composite",
+        "Composite intervals downhole.",
+        "composite: 12 composites",
+        "Cautions",
+        *CAUTIONS,
+        "Provenance",
+        "ab" * 32,
+        "cd" * 32,
+        "composite.length_m",
+        "Seed",
+    ):
         assert part in text
-    assert "qualified person" in text and "metallurgical testwork" in text
+    assert "qualified person" in text
+    assert "metallurgical testwork" in text
     assert "site engineering" in text
     links = [c.hyperlink.location for row in ws.iter_rows() for c in row if c.hyperlink]
     assert "'Composites'!A1" in links
@@ -168,9 +205,15 @@ def test_number_formats_by_unit():
 
 def test_sheet_names_plain_short_unique():
     assert sheet_title("domain_summary") == "Domain summary"
-    names = unique_sheet_titles(["a_very_long_table_name_for_blend_scenarios_by_period",
-                                 "a_very_long_table_name_for_blend_scenarios_by_phase",
-                                 "plots", "about_this_run", "odd[name]?"])
+    names = unique_sheet_titles(
+        [
+            "a_very_long_table_name_for_blend_scenarios_by_period",
+            "a_very_long_table_name_for_blend_scenarios_by_phase",
+            "plots",
+            "about_this_run",
+            "odd[name]?",
+        ]
+    )
     values = list(names.values())
     assert all(len(v) <= 31 for v in values)
     assert len({v.lower() for v in values}) == len(values)
@@ -182,15 +225,25 @@ def test_sheet_names_plain_short_unique():
 
 
 def test_text_is_never_a_formula_and_control_characters_go(tmp_path):
-    frame = pd.DataFrame({"hole_id": ['=HYPERLINK("http://x","y")', "VL-\x07001", "=1+1",
-                                      "<b>A&B</b>", "  padded "],
-                          "cu_pct": [0.1, 0.2, 0.3, 0.4, 0.5]})
+    frame = pd.DataFrame(
+        {
+            "hole_id": [
+                '=HYPERLINK("http://x","y")',
+                "VL-\x07001",
+                "=1+1",
+                "<b>A&B</b>",
+                "  padded ",
+            ],
+            "cu_pct": [0.1, 0.2, 0.3, 0.4, 0.5],
+        }
+    )
     path = write_workbook(tmp_path / "t.xlsx", result_with({"composites": frame}))
     ws = openpyxl.load_workbook(path)["Composites"]
     assert ws["A5"].data_type == "s"
     assert ws["A5"].value == '=HYPERLINK("http://x","y")'
     assert ws["A6"].value == "VL-001"
-    assert ws["A7"].data_type == "s" and ws["A7"].value == "=1+1"
+    assert ws["A7"].data_type == "s"
+    assert ws["A7"].value == "=1+1"
     assert ws["A8"].value == "<b>A&B</b>"
     assert ws["A9"].value == "  padded "
     assert [ws[f"B{r}"].value for r in range(5, 10)] == [0.1, 0.2, 0.3, 0.4, 0.5]
@@ -198,18 +251,21 @@ def test_text_is_never_a_formula_and_control_characters_go(tmp_path):
 
 
 def test_dtypes_dates_bools_nullable_ints_categories(tmp_path):
-    frame = pd.DataFrame({
-        "sample_id": pd.Categorical(["S1", "S2", "S3"]),
-        "test_date": pd.to_datetime(["2024-03-01", "2024-04-15", None]),
-        "period": pd.array([1, None, 3], dtype="Int64"),
-        "flagged": [True, False, True],
-        "cu_pct": [np.inf, 0.2, 0.3],
-    })
+    frame = pd.DataFrame(
+        {
+            "sample_id": pd.Categorical(["S1", "S2", "S3"]),
+            "test_date": pd.to_datetime(["2024-03-01", "2024-04-15", None]),
+            "period": pd.array([1, None, 3], dtype="Int64"),
+            "flagged": [True, False, True],
+            "cu_pct": [np.inf, 0.2, 0.3],
+        }
+    )
     path = write_workbook(tmp_path / "d.xlsx", result_with({"testwork_selection": frame}))
     ws = openpyxl.load_workbook(path)["Testwork selection"]
     rows = list(ws.iter_rows(min_row=5, values_only=True))
     assert rows[0] == ("S1", dt.datetime(2024, 3, 1), 1, True, None)
-    assert rows[1][2] is None and rows[2][1] is None
+    assert rows[1][2] is None
+    assert rows[2][1] is None
     assert ws["B5"].number_format == "yyyy-mm-dd"
 
 
@@ -221,8 +277,9 @@ def test_plots_are_embedded_with_caption(tmp_path):
     png = tmp_path / "cu.png"
     fig.savefig(png, dpi=80)
     plt.close(fig)
-    result = result_with({"composites": composites()},
-                         plots=[Plot("cu", png, "Copper by depth", table="composites")])
+    result = result_with(
+        {"composites": composites()}, plots=[Plot("cu", png, "Copper by depth", table="composites")]
+    )
     path = write_workbook(tmp_path / "p.xlsx", result)
     wb = openpyxl.load_workbook(path)
     assert PLOTS_SHEET in wb.sheetnames
@@ -237,8 +294,9 @@ def test_plots_are_embedded_with_caption(tmp_path):
 def test_large_table_streams(tmp_path):
     n = 20_000
     rng = np.random.default_rng(1)
-    frame = pd.DataFrame({"block_id": np.arange(n), **{f"m{i}_pct": rng.random(n)
-                                                       for i in range(4)}})
+    frame = pd.DataFrame(
+        {"block_id": np.arange(n), **{f"m{i}_pct": rng.random(n) for i in range(4)}}
+    )
     frame["domain"] = np.where(frame["m0_pct"] > 0.5, "Argillic cap", "Potassic core")
     path = write_workbook(tmp_path / "big.xlsx", result_with({"blocks_domained": frame}))
     wb = openpyxl.load_workbook(path, read_only=True)
@@ -256,8 +314,10 @@ def test_rows_beyond_excel_limit_are_cut_with_a_note(tmp_path, monkeypatch):
     path = write_workbook(tmp_path / "cut.xlsx", result_with({"composites": frame}))
     ws = openpyxl.load_workbook(path)["Composites"]
     assert ws.max_row == 10
-    assert "Only the first 6 rows fit on a sheet; the full table is in tables/composites.csv." \
+    assert (
+        "Only the first 6 rows fit on a sheet; the full table is in tables/composites.csv."
         in ws["A2"].value
+    )
     assert EXCEL_MAX_ROWS == 1_048_576  # Excel specifications and limits (Microsoft)
 
 
@@ -277,3 +337,16 @@ def test_write_is_atomic(tmp_path, monkeypatch):
     gc.collect()  # openpyxl's unfinished sheet streams complain when collected: here, not later
     assert path.read_bytes() == b"previous workbook"
     assert [p.name for p in tmp_path.iterdir()] == ["r.xlsx"]
+
+
+def test_units_and_meanings_of_statistic_and_helper_columns():
+    # Units follow the glossary's suffix rule (docs/contracts.md) after a statistic suffix.
+    assert column_unit("clay_swelling_pct_mean") == "%"
+    assert column_unit("acid_kg_t_p90") == "kg/t"
+    assert column_unit("cu_pct_detection_limit") == "%"
+    assert column_unit("au_gpt_censored") == ""
+    assert column_unit("flotation_time_min") == "min"  # minutes, not a minimum
+    assert column_description("cu_pct_max") == "Maximum of total copper (cu_pct)"
+    assert column_description("cu_recovery_frac_p10") == "10th percentile of cu_recovery_frac"
+    assert column_description("au_gpt_censored").startswith("True where au_gpt was reported")
+    assert column_description("hole_id") == describe("hole_id")

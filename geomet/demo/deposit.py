@@ -341,10 +341,10 @@ def _weathering(f, x, y, z, topo):
     }
 
 
-def _base_minerals(f, x, y, z, topo, w, lith):
+def _base_minerals(f, x, y, z, topo, w, lith, ftex):
     """Alteration assemblages with textural variation, smectite patches and tourmaline."""
     m = np.zeros((len(x), len(MINERALS)))
-    tex = [np.exp(0.35 * f[f"tex{i}"](x, y, z) - 0.06) for i in range(5)]
+    tex = [np.exp(0.35 * ft - 0.06) for ft in ftex]
     for zone, assemblage in ASSEMBLAGES_PCT.items():
         wz = w[zone]
         for mineral, pct in assemblage.items():
@@ -361,7 +361,7 @@ def _base_minerals(f, x, y, z, topo, w, lith):
     return m
 
 
-def _grades(f, x, y, z, d, up, w, wx, lith, dyke, fert):
+def _grades(f, x, y, z, d, up, w, wx, lith, dyke, fert, ftex):
     """Cu, Au and Mo grades (Cu after supergene leaching and enrichment) and trace elements."""
     w_aa = w["advanced_argillic"]
     w_lc, w_ox, w_en = wx["leached"], wx["oxide"], wx["enriched"]
@@ -382,17 +382,17 @@ def _grades(f, x, y, z, d, up, w, wx, lith, dyke, fert):
     # cap; low-pyrite potassic ground keeps much of its copper as oxide minerals in place
     pyritic = np.clip(w["phyllic"] + w_aa + 0.3 * w["propylitic"], 0.0, 1.0)
     cu = (
-        cu_h * (1.0 + 1.7 * fert * w_en + 0.9 * fert * w_ox) * (1.0 - w_lc * (0.35 + 0.6 * pyritic))
+        cu_h * (1.0 + 1.7 * fert * w_en + 1.3 * fert * w_ox) * (1.0 - w_lc * (0.2 + 0.75 * pyritic))
     )
     au = au * (1.0 + 0.15 * w_lc)
     ag = (0.25 + 1.8 * cu_h * (1.0 + 0.8 * fert * w_en) * (1.0 - 0.6 * w_lc)) * np.exp(0.3 * ftr)
-    as_ppm = (6.0 + 120.0 * w["phyllic"] * up + 300.0 * w_aa) * np.exp(0.4 * f["tex1"](x, y, z))
+    as_ppm = (6.0 + 120.0 * w["phyllic"] * up + 300.0 * w_aa) * np.exp(0.4 * ftex[1])
     zn_ppm = (
         (35.0 + 700.0 * np.exp(-(((d - 2.05) / 0.45) ** 2)))
         * (1.0 - 0.8 * w_lc)
-        * np.exp(0.4 * f["tex2"](x, y, z))
+        * np.exp(0.4 * ftex[2])
     )
-    pb_ppm = (8.0 + 260.0 * np.exp(-(((d - 2.3) / 0.5) ** 2))) * np.exp(0.4 * f["tex4"](x, y, z))
+    pb_ppm = (8.0 + 260.0 * np.exp(-(((d - 2.3) / 0.5) ** 2))) * np.exp(0.4 * ftex[4])
     trace = {"au_gpt": au, "ag_gpt": ag, "as_ppm": as_ppm, "zn_ppm": zn_ppm, "pb_ppm": pb_ppm}
     return cu, mo_ppm, trace
 
@@ -502,8 +502,9 @@ def sample_geology(model: DepositModel, x_m, y_m, z_m) -> Geology:
     wx = _weathering(f, x, y, z, topo)
     w_aa = w["advanced_argillic"]
     fert = np.clip(w["phyllic"] + w_aa + 0.5 * w["potassic"] + 0.2 * w["propylitic"], 0.0, 1.0)
-    m = _base_minerals(f, x, y, z, topo, w, lith)
-    cu, mo_ppm, trace = _grades(f, x, y, z, d, up, w, wx, lith, dyke, fert)
+    ftex = [f[f"tex{i}"](x, y, z) for i in range(5)]  # textural fields, shared below
+    m = _base_minerals(f, x, y, z, topo, w, lith, ftex)
+    cu, mo_ppm, trace = _grades(f, x, y, z, d, up, w, wx, lith, dyke, fert, ftex)
     _add_copper_minerals(m, cu, mo_ppm, w, wx)
     _weather_minerals(m, wx)
     anh, gyp, z_front = _sulfates(f, x, y, z, topo, w, fert, dyke)

@@ -70,5 +70,6 @@ class FourierField:
             arg = self.phases + block[:, 0:1] * k[:, 0]
             for d in range(1, k.shape[1]):
                 arg += block[:, d : d + 1] * k[:, d]
-            out[start : start + _CHUNK] = scale * np.cos(arg).sum(axis=1)
+            np.cos(arg, out=arg)
+            out[start : start + _CHUNK] = scale * arg.sum(axis=1)
         return out.reshape(np.shape(coords[0]))

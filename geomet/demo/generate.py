@@ -78,6 +78,8 @@ class DemoData:
         Hidden truth parameters and noise levels (for tests only).
     planted_errors : list of dict
         The planted errors: table, file, hole_id, line, column, rule, description.
+    model : DepositModel
+        The 3-D model behind the tables (for :func:`geomet.demo.sample_geology`).
     """
 
     seed: int
@@ -129,7 +131,7 @@ def generate_demo(
     geomet.errors.RecipeError
         For a non-positive ``scale``, ``holes`` below 1 or an unknown table name.
     """
-    if scale <= 0:
+    if not (np.isfinite(scale) and scale > 0):
         msg = f"scale must be positive; got scale={scale}"
         raise RecipeError(msg)
     if holes is not None and holes < 1:

@@ -297,9 +297,22 @@ def format_lab_assays(assays: pd.DataFrame, rng: np.random.Generator) -> pd.Data
     return out
 
 
+def _merge_equal_neighbours(runs: list[list]) -> list[list]:
+    merged: list[list] = []
+    for r in runs:
+        if merged and merged[-1][2] == r[2]:
+            merged[-1][1] = r[1]
+        else:
+            merged.append(list(r))
+    return merged
+
+
 def _absorb_short_runs(runs: list[list], min_run_m: float) -> list[list]:
-    """Merge each run shorter than min_run_m into its longer neighbour, shortest first."""
-    runs = [list(r) for r in runs]
+    """Merge each run shorter than min_run_m into its longer neighbour, shortest first.
+
+    Runs are ``[from_m, to_m, code]``, contiguous; neighbours with the same code are merged.
+    """
+    runs = _merge_equal_neighbours(runs)
     while len(runs) > 1:
         lengths = [r[1] - r[0] for r in runs]
         i = int(np.argmin(lengths))
@@ -312,15 +325,8 @@ def _absorb_short_runs(runs: list[list], min_run_m: float) -> list[list]:
         else:
             j = i - 1 if lengths[i - 1] >= lengths[i + 1] else i + 1
         lo, hi = min(i, j), max(i, j)
-        keep = runs[j][2]
-        runs[lo : hi + 1] = [[runs[lo][0], runs[hi][1], keep]]
-        merged = []
-        for r in runs:
-            if merged and merged[-1][2] == r[2]:
-                merged[-1][1] = r[1]
-            else:
-                merged.append(r)
-        runs = merged
+        runs[lo : hi + 1] = [[runs[lo][0], runs[hi][1], runs[j][2]]]
+        runs = _merge_equal_neighbours(runs)
     return runs
 
 

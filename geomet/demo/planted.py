@@ -17,8 +17,17 @@ RULE_BEYOND_DEPTH = "beyond_total_depth"
 
 
 def _pick_hole(collars: pd.DataFrame, rng: np.random.Generator, avoid: set[str]) -> str:
-    holes = [h for h in collars["hole_id"] if h not in avoid]
+    """A random hole not used yet (any hole once every hole has been used)."""
+    holes = [h for h in collars["hole_id"] if h not in avoid] or list(collars["hole_id"])
     return str(holes[int(rng.integers(0, len(holes)))])
+
+
+def _contiguous_rows(a: pd.DataFrame, hole: str) -> np.ndarray:
+    """Rows of ``hole`` whose from_m equals the previous row's to_m."""
+    idx = np.flatnonzero(a["hole_id"].to_numpy() == hole)
+    prev_to = a["to_m"].to_numpy()[idx[:-1]]
+    this_from = a["from_m"].to_numpy()[idx[1:]]
+    return idx[1:][np.isclose(prev_to, this_from)]
 
 
 def plant_errors(
@@ -47,11 +56,11 @@ def plant_errors(
     # 1. an assay interval overlapping the previous one (from_m typed 1 m too shallow)
     a = tables["assays"].copy()
     hole = _pick_hole(tables["collars"], rng, used)
+    contiguous = _contiguous_rows(a, hole)
+    if len(contiguous) == 0:  # a hole of one or two samples: take the first that has a pair
+        hole = next(h for h in tables["collars"]["hole_id"] if len(_contiguous_rows(a, h)))
+        contiguous = _contiguous_rows(a, hole)
     used.add(hole)
-    idx = np.flatnonzero(a["hole_id"].to_numpy() == hole)
-    prev_to = a["to_m"].to_numpy()[idx[:-1]]
-    this_from = a["from_m"].to_numpy()[idx[1:]]
-    contiguous = idx[1:][np.isclose(prev_to, this_from)]
     r = int(contiguous[len(contiguous) // 2])
     a.loc[r, "from_m"] = round(float(a.loc[r, "from_m"]) - 1.0, 2)
     out["assays"] = a

@@ -266,6 +266,7 @@ def merge_intervals(
     *,
     breaks: str | pd.DataFrame = "union",
     drop_empty: bool = True,
+    censored_frac: bool = False,
 ) -> pd.DataFrame:
     """Put interval tables with different breaks onto one set of intervals.
 
@@ -283,6 +284,9 @@ def merge_intervals(
         kept).
     drop_empty : bool
         With ``breaks="union"``, drop intervals that no table covers (gaps in every table).
+    censored_frac : bool
+        Add ``<col>_censored_frac``: the length-weighted fraction of each interval whose
+        ``<col>`` value was censored (from the reader's ``<col>_censored`` flags) [-].
 
     Returns
     -------
@@ -352,6 +356,11 @@ def merge_intervals(
         coverage[f"{name}_coverage_frac"] = np.minimum(covered / safe_length, 1.0)
         skip = set(KEYS) | {"length_m", "coverage_frac"} | set(censored_columns(src.frame.columns))
         for col in src.frame.columns:
+            if censored_frac and str(col).endswith("_censored"):
+                flags = src.frame[col].fillna(False).to_numpy(dtype=float)[src.pos]
+                merged, _ = weighted_means(ti, ov, flags[si], n)
+                columns.setdefault(f"{col}_frac", pd.Series(merged))
+                continue
             if col in skip or str(col).endswith("_coverage_frac"):
                 continue
             if is_categorical(src.frame[col]):

@@ -30,12 +30,13 @@ Cu assay (:func:`oxide_cu_acid_kg_t`, 98.08/63.55 kg acid per kg Cu), not again 
 
 References
 ----------
-.. [1] Thomas, K.G. (2021). [Gangue acid consumption in copper heap leaching; mineral reactivity
-   and the dominance of carbonates in short-term and phyllosilicates in long-term consumption].
-   *Minerals Engineering* 171, 107090. https://doi.org/10.1016/j.mineng.2021.107090
-   (title not re-checked; cited as given in the project notes).
+.. [1] Thomas, M. (2021). Understanding gangue acid consumption in copper sulfide heap leaching:
+   predicting the impact of carbonates, silicates and secondary precipitates. *Minerals
+   Engineering* 171, 107090. https://doi.org/10.1016/j.mineng.2021.107090 (DOI from the article
+   number, not checked; carbonates drive
+   short-term, biotite and chlorite long-term consumption).
 .. [2] Chetty, D. (2018). Acid-gangue interactions in heap leach operations: a review of the role
-   of mineralogy and its significance in the industry. *Minerals* 8(2), 47.
+   of mineralogy for predicting ore behaviour. *Minerals* 8(2), 47.
    https://doi.org/10.3390/min8020047
 """
 

@@ -31,6 +31,7 @@ from geomet.forecast.inputs import copper_minerals, resolve_inputs
 
 ENERGY_METHODS = ("smc_bond", "bond")
 
+
 HARDNESS_RESPONSES = ("bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t")
 INTERVAL_COLUMNS = (
     "bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t", "specific_energy_kwh_t", "mill_energy_kwh_t",
@@ -262,6 +263,7 @@ def forecast_columns(
     inputs = resolve_inputs(table, where=where)
     models = _ensure_models(models, s)
     n = len(inputs["cu_pct"])
+
     result = {c: np.empty(n) for c in FORECAST_COLUMNS}
     for start in range(0, n, max(int(chunk_rows), 1)):
         stop = min(start + chunk_rows, n)

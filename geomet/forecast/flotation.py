@@ -30,6 +30,7 @@ from collections.abc import Mapping
 from functools import cache
 
 import numpy as np
+import pandas as pd
 
 from geomet.errors import InputDataError
 from geomet.minerals.formula import element_mass_fractions
@@ -151,8 +152,12 @@ def klimpel_recovery(r_inf_frac, k_per_min, time_min):
     """
     kt = np.asarray(k_per_min * time_min, dtype=float)
     safe = np.where(kt > 1e-12, kt, 1.0)
-    frac = np.where(kt > 1e-12, 1.0 - (-np.expm1(-safe)) / safe, 0.0)
+    limit = np.where(np.isnan(kt), np.nan, 0.0)  # kt -> 0 gives 0; missing stays missing
+    frac = np.where(kt > 1e-12, 1.0 - (-np.expm1(-safe)) / safe, limit)
     out = r_inf_frac * frac
+    series = next((a for a in (r_inf_frac, k_per_min, time_min) if isinstance(a, pd.Series)), None)
+    if series is not None:
+        return pd.Series(np.asarray(out, dtype=float), index=series.index)
     return float(out) if np.ndim(out) == 0 else out
 
 
@@ -381,7 +386,8 @@ def rougher_copper(
     py = np.fmax(np.asarray(pyrite_pct, dtype=float).reshape(-1), 0.0)
     gangue = np.maximum(100.0 - mineral_mass - ox_mass - py, 0.0)
     kaolin = np.maximum(np.asarray(clay_kaolin_pct, dtype=float).reshape(-1), 0.0)
-    entrained = gangue * c["gangue_entrainment_frac"] * (1.0 + c["kaolin_entrainment_per_pct"] * kaolin)
+    entrainment = c["gangue_entrainment_frac"] * (1.0 + c["kaolin_entrainment_per_pct"] * kaolin)
+    entrained = gangue * entrainment
     mass_pct = recovered_mass + ox_mass * r_ox + py * c["pyrite_recovery_frac"] * clay + entrained
     with np.errstate(invalid="ignore", divide="ignore"):
         conc = np.where(mass_pct > 0, 100.0 * cu * recovery / mass_pct, np.nan)
@@ -479,8 +485,6 @@ def au_recovery_frac(
 
 def _like(template, values):
     """Return ``values`` shaped like ``template``: float, ndarray or Series (same index)."""
-    import pandas as pd
-
     values = np.asarray(values, dtype=float)
     if isinstance(template, pd.Series):
         return pd.Series(values.reshape(len(template)), index=template.index)

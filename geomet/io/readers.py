@@ -12,9 +12,11 @@ numbers, ragged rows, a file too large to be real) are returned in :attr:`ReadRe
 not raised, so that a user sees all of them at once. A missing file or an unknown format raises
 :class:`geomet.errors.InputDataError`.
 
-Security: ``.xlsx`` files are opened with openpyxl in read-only mode; openpyxl parses the XML with
-``defusedxml`` when that package is installed (it is a geomet dependency), which refuses entity
-expansion ("billion laughs") and external entities. Before opening, the reader also refuses files
+Security: ``.xlsx`` files are opened with openpyxl in read-only mode. With ``defusedxml`` installed
+(a geomet dependency) openpyxl streams worksheets and shared strings through defusedxml's
+``iterparse``, which refuses entity expansion ("billion laughs") and external entities; the
+other workbook parts go through defusedxml too, or through lxml with entity resolution switched
+off when lxml is installed (openpyxl 3.1 behaviour). Before opening, the reader also refuses files
 larger than :data:`MAX_FILE_BYTES`, workbooks whose uncompressed size exceeds
 :data:`MAX_XLSX_UNCOMPRESSED_BYTES` or whose compression ratio exceeds
 :data:`MAX_XLSX_COMPRESSION_RATIO` (a "zip bomb"), and stops at :data:`MAX_ROWS` rows.
@@ -43,6 +45,7 @@ MAX_XLSX_UNCOMPRESSED_BYTES = 4 * 1024**3
 MAX_XLSX_COMPRESSION_RATIO = 200.0  # real workbooks compress ~5-20x (common practice threshold)
 XLSX_RATIO_CHECK_BYTES = 50_000_000  # the ratio test applies to workbooks expanding beyond this
 MAX_ROWS = 20_000_000
+MAX_CELL_PROBLEMS_PER_COLUMN = 1000  # then one summary problem for the rest of that column
 DELIMITERS = (",", ";", "\t", "|")
 ENCODINGS = ("utf-8", "cp1252", "latin-1")
 
@@ -614,7 +617,12 @@ def _read_xlsx_raw(path: Path, table: str, sheet, max_rows: int):
     try:
         book = openpyxl.load_workbook(path, read_only=True, data_only=True)
     except Exception as exc:  # openpyxl raises many types for a broken workbook
-        message = f"{fname} could not be opened as a workbook: {exc}"
+        root = exc
+        while root.__cause__ or root.__context__:
+            root = root.__cause__ or root.__context__
+        cause = f" (cause: {type(root).__name__})" if root is not exc else ""
+        first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        message = f"{fname} could not be opened as a workbook: {first}{cause}"
         return None, None, [Problem(ERROR, "bad_workbook", message, table=table, file=fname)], None
     try:
         names = book.sheetnames
@@ -632,24 +640,15 @@ def _read_xlsx_raw(path: Path, table: str, sheet, max_rows: int):
                 message = f"{fname} has no sheet '{sheet}'{hint}; sheets: {', '.join(names)}"
                 raise InputDataError(message)
             sheet_name = sheet
-        ws = book[sheet_name]
-        header = None
-        rows, lines = [], []
-        for row_number, values in enumerate(ws.iter_rows(min_row=1, values_only=True), start=1):
-            if not any(v is not None and str(v).strip() != "" for v in values):
-                continue
-            if header is None:
-                header = ["" if v is None else str(v).strip() for v in values]
-                width = len(header)
-                while width and header[width - 1] == "":
-                    width -= 1
-                header = header[:width]
-                continue
-            values = list(values[: len(header)]) + [None] * max(0, len(header) - len(values))
-            rows.append(values)
-            lines.append(row_number)
-            if len(rows) > max_rows:
-                break
+        try:
+            header, rows, lines = _sheet_rows(book[sheet_name], max_rows)
+        except Exception as exc:  # defusedxml refusals, broken XML: report, do not crash
+            message = (
+                f"{fname} sheet '{sheet_name}' could not be read ({type(exc).__name__}: {exc}); "
+                f"re-save it from the spreadsheet program or export it as CSV"
+            )
+            problem = Problem(ERROR, "bad_workbook", message, table=table, file=fname)
+            return None, None, [problem], sheet_name
     finally:
         book.close()
     if header is None:
@@ -665,6 +664,28 @@ def _read_xlsx_raw(path: Path, table: str, sheet, max_rows: int):
         message = f"{fname} sheet '{sheet_name}' has a header but no rows for table '{table}'"
         problems.append(Problem(WARNING, "empty_file", message, table=table, file=fname))
     return raw, lines, problems, sheet_name
+
+
+def _sheet_rows(ws, max_rows: int):
+    """Header, rows and sheet row numbers of a read-only worksheet (blank rows skipped)."""
+    header = None
+    rows, lines = [], []
+    for row_number, values in enumerate(ws.iter_rows(min_row=1, values_only=True), start=1):
+        if not any(v is not None and str(v).strip() != "" for v in values):
+            continue
+        if header is None:
+            header = ["" if v is None else str(v).strip() for v in values]
+            width = len(header)
+            while width and header[width - 1] == "":
+                width -= 1
+            header = header[:width]
+            continue
+        values = list(values[: len(header)]) + [None] * max(0, len(header) - len(values))
+        rows.append(values)
+        lines.append(row_number)
+        if len(rows) > max_rows:
+            break
+    return header, rows, lines
 
 
 # --- Parquet -----------------------------------------------------------------------------------
@@ -874,7 +895,11 @@ def _canonicalise(raw, lines, table, fname, column_map, units, detection, proble
         src_unit = units.get(col, units.get(used.get(col, col)))
         if src_unit is not None:
             dst_unit = canonical_unit(col)
-            factor = unit_factor(src_unit, dst_unit)
+            try:
+                factor = unit_factor(src_unit, dst_unit)
+            except InputDataError as exc:
+                message = f"units map for column {col} of {fname}: {exc}"
+                raise InputDataError(message) from exc
             if factor != 1.0:
                 values = values * factor
                 if f"{col}_detection_limit" in extra:
@@ -939,6 +964,8 @@ def _cell_text(value) -> str:
 def _non_numeric_problems(series, bad, col, fname, table, lines, hole):
     idx = np.flatnonzero(bad)
     out = []
+    rest = idx[MAX_CELL_PROBLEMS_PER_COLUMN:]
+    idx = idx[:MAX_CELL_PROBLEMS_PER_COLUMN]
     raw = series.astype(object).to_numpy()
     holes = hole.astype(object).to_numpy() if hole is not None else None
     for i in idx:
@@ -961,6 +988,26 @@ def _non_numeric_problems(series, bad, col, fname, table, lines, hole):
                 column=col,
                 value=value,
                 row=int(i),
+            )
+        )
+    if len(rest):
+        values = pd.Series(series.astype(object).to_numpy()[rest]).astype(str)
+        common = ", ".join(repr(v) for v in values.value_counts().index[:5])
+        message = (
+            f"{col} has {len(rest)} more values that are not numbers in {fname} (from line "
+            f"{int(lines[rest[0]])}), e.g. {common}; is this the right column, or a lab code "
+            f"to declare?"
+        )
+        out.append(
+            Problem(
+                ERROR,
+                "non_numeric",
+                message,
+                table=table,
+                file=fname,
+                line=int(lines[rest[0]]),
+                column=col,
+                value=str(len(rest)),
             )
         )
     return out

@@ -71,14 +71,38 @@ CAUTIONS = (
 )
 
 # Number formats by unit label (glossary.UNIT_SUFFIXES). Percent columns hold percent values
-# (0.45 means 0.45 %), so they get a plain decimal format, never Excel's "%" (which multiplies by 100).
+# (0.45 means 0.45 %), so they get a plain decimal format, never Excel's "%" (which x100).
 UNIT_FORMATS = {
-    "%": "0.00", "g/t": "0.000", "ppm": "0.0", "ppb": "0", "m": "0.00", "t": "#,##0",
-    "kt": "#,##0.0", "kWh/t": "0.00", "kWh/m³": "0.00", "kWh": "#,##0", "t/h": "#,##0",
-    "fraction": "0.000", "kg/t": "0.00", "g": "0.0", "kg": "#,##0.0", "oz": "#,##0",
-    "t/m³": "0.00", "nm": "0.0", "°": "0.0", "index": "0.00", "kW": "#,##0", "mm": "0.0",
-    "µm": "0", "min": "0.0", "h": "0.0", "USD": "#,##0", "USD/t": "0.00", "USD/oz": "#,##0",
-    "USD/g": "0.00", "USD/lb": "0.00",
+    "%": "0.00",
+    "g/t": "0.000",
+    "ppm": "0.0",
+    "ppb": "0",
+    "m": "0.00",
+    "t": "#,##0",
+    "kt": "#,##0.0",
+    "kWh/t": "0.00",
+    "kWh/m³": "0.00",
+    "kWh": "#,##0",
+    "t/h": "#,##0",
+    "fraction": "0.000",
+    "kg/t": "0.00",
+    "g": "0.0",
+    "kg": "#,##0.0",
+    "oz": "#,##0",
+    "t/m³": "0.00",
+    "nm": "0.0",
+    "°": "0.0",
+    "index": "0.00",
+    "kW": "#,##0",
+    "mm": "0.0",
+    "µm": "0",
+    "min": "0.0",
+    "h": "0.0",
+    "USD": "#,##0",
+    "USD/t": "0.00",
+    "USD/oz": "#,##0",
+    "USD/g": "0.00",
+    "USD/lb": "0.00",
 }
 FINE_GRADE_FORMAT = "0.000"  # copper grades are read to three decimals (common practice)
 DATE_FORMAT = "yyyy-mm-dd"
@@ -100,7 +124,7 @@ SECTION_FONT = Font(bold=True, size=12, color=INK)
 LINK_FONT = Font(color="1F5C99", underline="single")
 WRAP = Alignment(wrap_text=True, vertical="top")
 
-_QUANTILE = re.compile(r"_p\d{1,2}$")
+_STATISTIC = re.compile(r"_(mean|median|sd|std|min|max|avg|p\d{1,2})$")
 _KEY_COLUMNS = ("hole_id", "block_id", "sample_id", "domain")
 
 
@@ -129,28 +153,51 @@ def unique_sheet_titles(tables: Iterable[str]) -> dict[str, str]:
     return out
 
 
+def _split_statistic(name: str) -> tuple[str, str]:
+    """``("cu_pct", "mean")`` for ``cu_pct_mean``; ``(name, "")`` when no statistic suffix applies.
+
+    A suffix counts only when what is left carries a unit, so ``flotation_time_min`` stays minutes.
+    """
+    match = _STATISTIC.search(name)
+    if match and unit_of(name[: match.start()]):
+        return name[: match.start()], match.group(1)
+    return name, ""
+
+
 def column_unit(name: str) -> str:
-    """Unit of a column, also for quantile (``_p10``) and detection-limit helper columns."""
-    base = _QUANTILE.sub("", name)
-    base = base.removesuffix("_detection_limit")
+    """Unit of a column, also for statistics (``_mean``, ``_p10``) and detection-limit helpers."""
     if name.endswith("_censored"):
         return ""
+    base = name.removesuffix("_detection_limit")
+    base, _ = _split_statistic(base)
     return unit_of(base)
 
 
+_STATISTIC_WORDS = {
+    "mean": "Mean",
+    "median": "Median",
+    "sd": "Standard deviation",
+    "std": "Standard deviation",
+    "min": "Minimum",
+    "max": "Maximum",
+    "avg": "Average",
+}
+
+
 def column_description(name: str) -> str:
-    """Meaning of a column, from the glossary, with quantile and helper columns explained."""
-    match = _QUANTILE.search(name)
-    if match:
-        base = name[: match.start()]
-        level = match.group(0)[2:]
-        text = describe(base)
-        return f"{level}th percentile of the forecast{': ' + text if text else ''}".strip()
+    """Meaning of a column, from the glossary, with statistic and helper columns explained."""
     if name.endswith("_censored"):
         return f"True where {name.removesuffix('_censored')} was reported below or above detection."
     if name.endswith("_detection_limit"):
         return f"Detection limit reported for {name.removesuffix('_detection_limit')}."
-    return describe(name)
+    base, statistic = _split_statistic(name)
+    if not statistic:
+        return describe(name)
+    known = describe(base).rstrip(".")
+    text = f"{known[:1].lower()}{known[1:]} ({base})" if known else base
+    if statistic.startswith("p"):
+        return f"{statistic[1:]}th percentile of {text}"
+    return f"{_STATISTIC_WORDS[statistic]} of {text}"
 
 
 def number_format(name: str, dtype) -> str | None:
@@ -170,8 +217,12 @@ def number_format(name: str, dtype) -> str | None:
 
 
 # --- cell values ---------------------------------------------------------------------------------
+EXCEL_MAX_CELL_CHARS = 32_767  # Excel specifications and limits: characters in one cell
+
+
 def _clean_text(value: str) -> str:
-    return ILLEGAL_CHARACTERS_RE.sub("", value)
+    """Text a worksheet cell can hold: no XML-illegal control characters, at most 32 767 chars."""
+    return ILLEGAL_CHARACTERS_RE.sub("", value)[:EXCEL_MAX_CELL_CHARS]
 
 
 def python_values(series: pd.Series) -> list:
@@ -202,8 +253,11 @@ def _object_value(value: Any) -> Any:
     if isinstance(value, np.generic):
         return _object_value(value.item())
     if isinstance(value, pd.Timestamp):
-        return value.tz_convert("UTC").tz_localize(None).to_pydatetime() if value.tz else \
-            value.to_pydatetime()
+        return (
+            value.tz_convert("UTC").tz_localize(None).to_pydatetime()
+            if value.tz
+            else value.to_pydatetime()
+        )
     if isinstance(value, (dt.datetime, dt.date)):
         return value
     return _clean_text(str(value))
@@ -216,8 +270,17 @@ def _text_cell(ws, value: str) -> WriteOnlyCell:
     return cell
 
 
-def _styled(ws, value, *, font=None, fill=None, alignment=None, number_format=None,
-            hyperlink=None, comment=None) -> WriteOnlyCell:
+def _styled(
+    ws,
+    value,
+    *,
+    font=None,
+    fill=None,
+    alignment=None,
+    number_format=None,
+    hyperlink=None,
+    comment=None,
+) -> WriteOnlyCell:
     if isinstance(value, str):
         cell = _text_cell(ws, _clean_text(value))
     else:
@@ -274,8 +337,7 @@ def write_workbook(path: str | Path, result, *, title: str | None = None) -> Pat
     _about_sheet(wb, result, title, tables, names, produced, bool(plots), provenance)
     pending: dict[str, pd.DataFrame] = {}
     for table, frame in tables.items():
-        rest = _table_sheet(wb, names[table], table, frame, produced[table],
-                            plots=table in plotted)
+        rest = _table_sheet(wb, names[table], table, frame, produced[table], plots=table in plotted)
         if rest is not None:
             pending[names[table]] = rest
     if plots:
@@ -313,22 +375,42 @@ def _about_sheet(wb, result, title, tables, names, produced, has_plots, provenan
 
     def section(text):
         row()
-        row(*[_styled(ws, text if i == 0 else None, font=SECTION_FONT, fill=SECTION_FILL)
-              for i in range(4)])
+        row(
+            *[
+                _styled(ws, text if i == 0 else None, font=SECTION_FONT, fill=SECTION_FILL)
+                for i in range(4)
+            ]
+        )
 
     when = provenance.get("finished_utc") or provenance.get("started_utc", "")
     row(_styled(ws, title, font=TITLE_FONT))
-    row(_styled(ws, f"Results of a geomet {provenance.get('geomet_version', '')} run"
-                    f"{', ' + when if when else ''}. Read this sheet first.", font=SUBTITLE_FONT))
+    row(
+        _styled(
+            ws,
+            f"Results of a geomet {provenance.get('geomet_version', '')} run"
+            f"{', ' + when if when else ''}. Read this sheet first.",
+            font=SUBTITLE_FONT,
+        )
+    )
 
     section("What this run did")
-    row(*[_styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL)
-          for h in ("Step", "What it does", "Tables produced", "Time (s)")])
+    row(
+        *[
+            _styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL)
+            for h in ("Step", "What it does", "Tables produced", "Time (s)")
+        ]
+    )
     for rec in getattr(result, "steps", []):
-        row(_styled(ws, rec.name, font=HEADER_FONT), _styled(ws, rec.summary, alignment=WRAP),
-            _styled(ws, ", ".join(rec.produced + [f"{t} (updated)" for t in rec.replaced]),
-                    alignment=WRAP),
-            _styled(ws, round(rec.seconds, 2), number_format="0.00"))
+        row(
+            _styled(ws, rec.name, font=HEADER_FONT),
+            _styled(ws, rec.summary, alignment=WRAP),
+            _styled(
+                ws,
+                ", ".join(rec.produced + [f"{t} (updated)" for t in rec.replaced]),
+                alignment=WRAP,
+            ),
+            _styled(ws, round(rec.seconds, 2), number_format="0.00"),
+        )
     notes = list(getattr(result, "notes", []))
     if notes:
         section("Notes from the steps")
@@ -344,21 +426,32 @@ def _about_sheet(wb, result, title, tables, names, produced, has_plots, provenan
 
     section("Cautions")
     for text in CAUTIONS:
-        row(_styled(ws, "Caution", font=HEADER_FONT, fill=CAUTION_FILL),
-            _styled(ws, text, fill=CAUTION_FILL, alignment=WRAP))
+        row(
+            _styled(ws, "Caution", font=HEADER_FONT, fill=CAUTION_FILL),
+            _styled(ws, text, fill=CAUTION_FILL, alignment=WRAP),
+        )
 
     section("Sheets in this workbook")
-    row(*[_styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL) for h in ("Sheet", "Contents", "Rows")])
+    row(
+        *[_styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL) for h in ("Sheet", "Contents", "Rows")]
+    )
     for table, frame in tables.items():
-        row(_styled(ws, names[table], hyperlink=_link(names[table])),
+        row(
+            _styled(ws, names[table], hyperlink=_link(names[table])),
             _styled(ws, produced[table], alignment=WRAP),
-            _styled(ws, len(frame), number_format="#,##0"))
+            _styled(ws, len(frame), number_format="#,##0"),
+        )
     if has_plots:
         row(_styled(ws, PLOTS_SHEET, hyperlink=_link(PLOTS_SHEET)), "Charts made by the steps.")
-    row(_styled(ws, GUIDE_SHEET, hyperlink=_link(GUIDE_SHEET)),
-        "Every column of every sheet: unit and meaning.")
+    row(
+        _styled(ws, GUIDE_SHEET, hyperlink=_link(GUIDE_SHEET)),
+        "Every column of every sheet: unit and meaning.",
+    )
     if provenance.get("recipe", {}).get("text"):
-        row(_styled(ws, RECIPE_SHEET, hyperlink=_link(RECIPE_SHEET)), "The recipe this run followed.")
+        row(
+            _styled(ws, RECIPE_SHEET, hyperlink=_link(RECIPE_SHEET)),
+            "The recipe this run followed.",
+        )
 
     section("Provenance")
     recipe = provenance.get("recipe", {})
@@ -380,11 +473,19 @@ def _about_sheet(wb, result, title, tables, names, produced, has_plots, provenan
     inputs = provenance.get("inputs", [])
     if inputs:
         section("Input files")
-        row(*[_styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL)
-              for h in ("Table", "File", "SHA-256", "Rows")])
+        row(
+            *[
+                _styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL)
+                for h in ("Table", "File", "SHA-256", "Rows")
+            ]
+        )
         for rec in inputs:
-            row(rec.get("table", ""), _styled(ws, rec.get("file", "")),
-                _styled(ws, rec.get("sha256", "")), rec.get("rows"))
+            row(
+                rec.get("table", ""),
+                _styled(ws, rec.get("file", "")),
+                _styled(ws, rec.get("sha256", "")),
+                rec.get("rows"),
+            )
     params = provenance.get("parameters", {})
     if params:
         section("Parameters (every option in effect, defaults included)")
@@ -400,8 +501,14 @@ def _flatten(tree: Mapping, prefix: str = "") -> list[tuple[str, str]]:
         if isinstance(value, Mapping) and value:
             out += _flatten(value, path)
         else:
-            out.append((path, value if isinstance(value, str) else json.dumps(
-                value, ensure_ascii=False, default=str)))
+            out.append(
+                (
+                    path,
+                    value
+                    if isinstance(value, str)
+                    else json.dumps(value, ensure_ascii=False, default=str),
+                )
+            )
     return out
 
 
@@ -421,8 +528,9 @@ def _column_widths(frame: pd.DataFrame, sample_rows: int = 300) -> list[float]:
     return widths
 
 
-def _table_sheet(wb, sheet: str, table: str, frame: pd.DataFrame, description: str, *,
-                 plots: bool) -> pd.DataFrame | None:
+def _table_sheet(
+    wb, sheet: str, table: str, frame: pd.DataFrame, description: str, *, plots: bool
+) -> pd.DataFrame | None:
     """Write a table's header rows and first data row; return the rows still to write."""
     ws = wb.create_sheet(sheet)
     columns = [str(c) for c in frame.columns]
@@ -440,30 +548,59 @@ def _table_sheet(wb, sheet: str, table: str, frame: pd.DataFrame, description: s
     if columns:
         ws.auto_filter.ref = f"A{HEADER_ROWS}:{last_col}{max(last_row, HEADER_ROWS)}"
     for i, col in enumerate(columns, 1):
-        if is_risk_column(col) and pd.api.types.is_numeric_dtype(frame[col].dtype) and \
-                not pd.api.types.is_bool_dtype(frame[col].dtype) and len(body):
+        if (
+            is_risk_column(col)
+            and pd.api.types.is_numeric_dtype(frame[col].dtype)
+            and not pd.api.types.is_bool_dtype(frame[col].dtype)
+            and len(body)
+        ):
             letter = get_column_letter(i)
             ws.conditional_formatting.add(
                 f"{letter}{HEADER_ROWS + 1}:{letter}{last_row}",
-                ColorScaleRule(start_type="percentile", start_value=5, start_color=RISK_COLOURS[0],
-                               mid_type="percentile", mid_value=50, mid_color=RISK_COLOURS[1],
-                               end_type="percentile", end_value=95, end_color=RISK_COLOURS[2]))
+                ColorScaleRule(
+                    start_type="percentile",
+                    start_value=5,
+                    start_color=RISK_COLOURS[0],
+                    mid_type="percentile",
+                    mid_value=50,
+                    mid_color=RISK_COLOURS[1],
+                    end_type="percentile",
+                    end_value=95,
+                    end_color=RISK_COLOURS[2],
+                ),
+            )
 
     extra = [f"{len(frame):,} rows."]
     if truncated:
-        extra.append(f"Only the first {limit:,} rows fit on a sheet; the full table is in "
-                     f"tables/{table}.csv.")
+        extra.append(
+            f"Only the first {limit:,} rows fit on a sheet; the full table is in "
+            f"tables/{table}.csv."
+        )
     if any(is_risk_column(c) for c in columns):
         extra.append("Colour scale on risk columns: darker = more process risk.")
     if plots:
         extra.append(f"Charts: sheet '{PLOTS_SHEET}'.")
     ws.append([_styled(ws, sheet, font=TITLE_FONT)])
-    ws.append([_styled(ws, " ".join([description.rstrip(".") + "." if description else "",
-                                     *extra]).strip(), font=SUBTITLE_FONT)])
-    ws.append([_styled(ws, col, font=HEADER_FONT, fill=HEADER_FILL,
-                       comment=column_description(col) or None) for col in columns])
-    ws.append([_styled(ws, column_unit(col) or "-", font=UNITS_FONT, fill=UNITS_FILL)
-               for col in columns])
+    ws.append(
+        [
+            _styled(
+                ws,
+                " ".join([description.rstrip(".") + "." if description else "", *extra]).strip(),
+                font=SUBTITLE_FONT,
+            )
+        ]
+    )
+    ws.append(
+        [
+            _styled(
+                ws, col, font=HEADER_FONT, fill=HEADER_FILL, comment=column_description(col) or None
+            )
+            for col in columns
+        ]
+    )
+    ws.append(
+        [_styled(ws, column_unit(col) or "-", font=UNITS_FONT, fill=UNITS_FILL) for col in columns]
+    )
 
     # openpyxl writes one empty styled cell per column in the first data row: that gives every
     # column its style id. _stream_rows then writes all the data rows in its place.
@@ -471,8 +608,11 @@ def _table_sheet(wb, sheet: str, table: str, frame: pd.DataFrame, description: s
     for col in frame.columns:
         series = body[col]
         fmt = number_format(str(col), series.dtype)
-        if pd.api.types.is_datetime64_any_dtype(series.dtype) and len(series) and \
-                (series.dropna().dt.normalize() != series.dropna()).any():
+        if (
+            pd.api.types.is_datetime64_any_dtype(series.dtype)
+            and len(series)
+            and (series.dropna().dt.normalize() != series.dropna()).any()
+        ):
             fmt = DATETIME_FORMAT
         formats.append(fmt)
     if not len(body) or not columns:
@@ -487,16 +627,17 @@ def _table_sheet(wb, sheet: str, table: str, frame: pd.DataFrame, description: s
     return body
 
 
-# --- fast rows -------------------------------------------------------------------------------------
+# --- fast rows -----------------------------------------------------------------------------
 # openpyxl spends ~10 us per styled cell; a table of 50 000 rows x 100 columns would take a minute.
 # Data rows are therefore written as SpreadsheetML directly (ECMA-376 Part 1, 18.3.1:
 # <row r=".."><c r="B6" s="3"><v>0.5</v></c>...</row>), with each column's style id read from the
 # probe row that openpyxl wrote. Text is written as inline strings (t="inlineStr"), which are
 # never formulas.
-_CELL_START = re.compile(r'<c\b([^>]*?)/?>')
+_CELL_START = re.compile(r"<c\b([^>]*?)/?>")
 _ATTR = re.compile(r'(\w+)="([^"]*)"')
 _EXCEL_EPOCH = np.datetime64("1899-12-30T00:00:00", "ns")
 _ROWS_PER_CHUNK = 5000
+_XML_EXTRA = {"\r": "&#13;"}  # a literal CR would be read back as LF (XML 1.0, section 2.11)
 
 
 def _column_style_ids(sheet_xml: str, row: int, n_cols: int) -> list[str]:
@@ -521,18 +662,24 @@ def _column_cells(series: pd.Series, letter: str, style: str, rows: list[str]) -
     head = f'<c r="{letter}'
     if pd.api.types.is_bool_dtype(dtype) and not isinstance(dtype, pd.CategoricalDtype):
         values = python_values(series)
-        return ["" if v is None else f'{head}{r}"{style} t="b"><v>{int(v)}</v></c>'
-                for v, r in zip(values, rows, strict=True)]
+        return [
+            "" if v is None else f'{head}{r}"{style} t="b"><v>{int(v)}</v></c>'
+            for v, r in zip(values, rows, strict=True)
+        ]
     if pd.api.types.is_datetime64_any_dtype(dtype):
         values = series.dt.tz_convert("UTC").dt.tz_localize(None) if series.dt.tz else series
         stamps = values.to_numpy(dtype="datetime64[ns]")
         days = ((stamps - _EXCEL_EPOCH) / np.timedelta64(1, "D")).tolist()
-        return ["" if math.isnan(d) else f'{head}{r}"{style}><v>{d!r}</v></c>'
-                for d, r in zip(days, rows, strict=True)]
+        return [
+            "" if math.isnan(d) else f'{head}{r}"{style}><v>{d!r}</v></c>'
+            for d, r in zip(days, rows, strict=True)
+        ]
     if pd.api.types.is_numeric_dtype(dtype) and not isinstance(dtype, pd.CategoricalDtype):
         values = python_values(series)
-        return ["" if v is None else f'{head}{r}"{style}><v>{v!r}</v></c>'
-                for v, r in zip(values, rows, strict=True)]
+        return [
+            "" if v is None else f'{head}{r}"{style}><v>{v!r}</v></c>'
+            for v, r in zip(values, rows, strict=True)
+        ]
     out = []
     for v, r in zip(python_values(series), rows, strict=True):
         if v is None:
@@ -545,8 +692,8 @@ def _column_cells(series: pd.Series, letter: str, style: str, rows: list[str]) -
             out.append(f'{head}{r}"{style} t="inlineStr"><is><t>{v.isoformat()}</t></is></c>')
         else:
             space = ' xml:space="preserve"' if v != v.strip() else ""
-            out.append(f'{head}{r}"{style} t="inlineStr"><is><t{space}>{xml_escape(v)}</t>'
-                       f'</is></c>')
+            text = xml_escape(v, _XML_EXTRA)
+            out.append(f'{head}{r}"{style} t="inlineStr"><is><t{space}>{text}</t></is></c>')
     return out
 
 
@@ -562,15 +709,16 @@ def _number_cells(series: pd.Series, letter: str, style: str, rows: pa.Array) ->
     else:
         values = pa.array(series.to_numpy(dtype=object, na_value=None), type=pa.int64())
     text = pc.cast(values, pa.string())
-    cells = pc.binary_join_element_wise(f'<c r="{letter}', rows, f'"{style}><v>', text, "</v></c>",
-                                        "")
+    cells = pc.binary_join_element_wise(
+        f'<c r="{letter}', rows, f'"{style}><v>', text, "</v></c>", ""
+    )
     return pc.fill_null(cells, "")
 
 
 def _row_chunks(body: pd.DataFrame, first_row: int, styles: list[str]):
     letters = [get_column_letter(i) for i in range(1, len(body.columns) + 1)]
     for start in range(0, len(body), _ROWS_PER_CHUNK):
-        part = body.iloc[start:start + _ROWS_PER_CHUNK]
+        part = body.iloc[start : start + _ROWS_PER_CHUNK]
         numbers = np.arange(first_row + start, first_row + start + len(part))
         rows = pc.cast(pa.array(numbers), pa.string())
         row_list = None
@@ -578,24 +726,29 @@ def _row_chunks(body: pd.DataFrame, first_row: int, styles: list[str]):
         for j, letter in enumerate(letters):
             series = part.iloc[:, j]
             dtype = series.dtype
-            if (pd.api.types.is_float_dtype(dtype) or pd.api.types.is_integer_dtype(dtype)) \
-                    and not pd.api.types.is_bool_dtype(dtype):
+            if (
+                pd.api.types.is_float_dtype(dtype) or pd.api.types.is_integer_dtype(dtype)
+            ) and not pd.api.types.is_bool_dtype(dtype):
                 columns.append(_number_cells(series, letter, styles[j], rows))
             else:
                 row_list = row_list or rows.to_pylist()
-                columns.append(pa.array(_column_cells(series, letter, styles[j], row_list),
-                                        type=pa.string()))
-        joined = pc.binary_join_element_wise(*columns, "") if columns else pa.array(
-            [""] * len(part))
+                columns.append(
+                    pa.array(_column_cells(series, letter, styles[j], row_list), type=pa.string())
+                )
+        joined = (
+            pc.binary_join_element_wise(*columns, "") if columns else pa.array([""] * len(part))
+        )
         lines = pc.binary_join_element_wise('<row r="', rows, '">', joined, "</row>", "")
         yield "".join(lines.to_pylist())
 
 
 def _sheet_members(archive: zipfile.ZipFile) -> dict[str, str]:
     """Sheet name -> archive member of its worksheet XML (from workbook.xml and its rels)."""
-    ns = {"m": "http://schemas.openxmlformats.org/spreadsheetml/2006/main",
-          "r": "http://schemas.openxmlformats.org/officeDocument/2006/relationships",
-          "p": "http://schemas.openxmlformats.org/package/2006/relationships"}
+    ns = {
+        "m": "http://schemas.openxmlformats.org/spreadsheetml/2006/main",
+        "r": "http://schemas.openxmlformats.org/officeDocument/2006/relationships",
+        "p": "http://schemas.openxmlformats.org/package/2006/relationships",
+    }
     book = ElementTree.fromstring(archive.read("xl/workbook.xml"))
     rels = ElementTree.fromstring(archive.read("xl/_rels/workbook.xml.rels"))
     targets = {rel.get("Id"): rel.get("Target") for rel in rels.findall("p:Relationship", ns)}
@@ -609,8 +762,10 @@ def _sheet_members(archive: zipfile.ZipFile) -> dict[str, str]:
 def _stream_rows(saved: Path, final: Path, pending: Mapping[str, pd.DataFrame]) -> None:
     """Copy workbook ``saved`` to ``final``, appending the ``pending`` rows to their sheets."""
     # Level 1 deflate: a third of the time of the default level for a few per cent more bytes.
-    with zipfile.ZipFile(saved) as src, zipfile.ZipFile(final, "w", zipfile.ZIP_DEFLATED,
-                                                        compresslevel=1) as dst:
+    with (
+        zipfile.ZipFile(saved) as src,
+        zipfile.ZipFile(final, "w", zipfile.ZIP_DEFLATED, compresslevel=1) as dst,
+    ):
         members = _sheet_members(src)
         patch = {members[sheet]: body for sheet, body in pending.items()}
         for item in src.infolist():
@@ -621,8 +776,9 @@ def _stream_rows(saved: Path, final: Path, pending: Mapping[str, pd.DataFrame]) 
                 continue
             xml = data.decode("utf-8")
             styles = _column_style_ids(xml, HEADER_ROWS + 1, len(body.columns))
-            xml = re.sub(rf'<row r="{HEADER_ROWS + 1}"[^>]*>.*?</row>', "", xml, count=1,
-                         flags=re.S)
+            xml = re.sub(
+                rf'<row r="{HEADER_ROWS + 1}"[^>]*>.*?</row>', "", xml, count=1, flags=re.S
+            )
             head, tail = xml.split("</sheetData>", 1)
             info = zipfile.ZipInfo(item.filename, date_time=item.date_time)
             info.compress_type = zipfile.ZIP_DEFLATED
@@ -643,8 +799,15 @@ def _plots_sheet(wb, plots, names: Mapping[str, str]) -> None:
     ws.column_dimensions["A"].width = 100
     ws.sheet_view.showGridLines = False
     ws.append([_styled(ws, "Charts", font=TITLE_FONT)])
-    ws.append([_styled(ws, "Charts made by the run's steps; the PNG files are in plots/.",
-                       font=SUBTITLE_FONT)])
+    ws.append(
+        [
+            _styled(
+                ws,
+                "Charts made by the run's steps; the PNG files are in plots/.",
+                font=SUBTITLE_FONT,
+            )
+        ]
+    )
     row = 3
     for plot in plots:
         ws.append([])
@@ -675,17 +838,34 @@ def _guide_sheet(wb, tables: Mapping[str, pd.DataFrame], names: Mapping[str, str
         ws.column_dimensions[letter].width = width
     ws.freeze_panes = "A4"
     ws.append([_styled(ws, "Column guide", font=TITLE_FONT)])
-    ws.append([_styled(ws, "Units and meaning of every column. Column names carry their unit as a "
-                           "suffix (_pct %, _gpt g/t, _ppm, _m, _t, _kwh_t, _frac 0-1, _idx index).",
-                       font=SUBTITLE_FONT)])
-    ws.append([_styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL)
-               for h in ("Sheet", "Column", "Unit", "Meaning")])
+    ws.append(
+        [
+            _styled(
+                ws,
+                "Units and meaning of every column. Column names carry their unit as a "
+                "suffix (_pct %, _gpt g/t, _ppm, _m, _t, _kwh_t, _frac 0-1, _idx index).",
+                font=SUBTITLE_FONT,
+            )
+        ]
+    )
+    ws.append(
+        [
+            _styled(ws, h, font=HEADER_FONT, fill=HEADER_FILL)
+            for h in ("Sheet", "Column", "Unit", "Meaning")
+        ]
+    )
     ws.auto_filter.ref = "A3:D3"
     count = 0
     for table, frame in tables.items():
         for col in frame.columns:
-            ws.append([names[table], _styled(ws, str(col)), column_unit(str(col)),
-                       _styled(ws, column_description(str(col)))])
+            ws.append(
+                [
+                    names[table],
+                    _styled(ws, str(col)),
+                    column_unit(str(col)),
+                    _styled(ws, column_description(str(col))),
+                ]
+            )
             count += 1
     ws.auto_filter.ref = f"A3:D{3 + count}"
 
@@ -694,7 +874,9 @@ def _recipe_sheet(wb, text: str, file_name: str) -> None:
     ws = wb.create_sheet(RECIPE_SHEET)
     ws.column_dimensions["A"].width = 110
     ws.append([_styled(ws, f"Recipe {file_name}".strip(), font=TITLE_FONT)])
-    ws.append([_styled(ws, "The recipe this run followed, exactly as written.", font=SUBTITLE_FONT)])
+    ws.append(
+        [_styled(ws, "The recipe this run followed, exactly as written.", font=SUBTITLE_FONT)]
+    )
     mono = Font(name="Consolas", size=10)
     for line in text.splitlines():
         ws.append([_styled(ws, line, font=mono) if line else None])

@@ -97,7 +97,7 @@ def write_json(obj: Any, path: str | Path) -> Path:
 
 
 def csv_bytes(frame: pd.DataFrame) -> bytes:
-    """A table as CSV bytes: canonical headers, no index, ``\\n`` line ends, full float precision."""
+    """A table as CSV bytes: no index, ``\\n`` line ends, full float precision."""
     return frame.to_csv(index=False, lineterminator="\n").encode("utf-8")
 
 
@@ -108,8 +108,13 @@ def _parquet_ready(frame: pd.DataFrame) -> pd.DataFrame:
         if out[col].dtype == object:
             kinds = {type(v) for v in out[col].dropna()}
             if len(kinds) > 1:
-                out[col] = out[col].map(lambda v: None if v is None or v is pd.NA or
-                                        (isinstance(v, float) and math.isnan(v)) else str(v))
+                out[col] = out[col].map(
+                    lambda v: (
+                        None
+                        if v is None or v is pd.NA or (isinstance(v, float) and math.isnan(v))
+                        else str(v)
+                    )
+                )
     return out
 
 
@@ -133,8 +138,9 @@ def write_table(frame: pd.DataFrame, path: str | Path) -> Path:
     raise GeometError(message)
 
 
-def write_tables(tables: Mapping[str, pd.DataFrame], folder: str | Path,
-                 table_format: str = "csv") -> list[Path]:
+def write_tables(
+    tables: Mapping[str, pd.DataFrame], folder: str | Path, table_format: str = "csv"
+) -> list[Path]:
     """Write every table as ``<folder>/<name>.csv`` and/or ``.parquet`` (``table_format``)."""
     if table_format not in TABLE_FORMATS:
         message = f"table_format must be one of {', '.join(TABLE_FORMATS)}; got {table_format!r}"
@@ -166,21 +172,25 @@ def check_output_folder(final: str | Path, protected: Iterable[str | Path] = ())
     for item in protected:
         item = Path(item).resolve()
         if final == item or final in item.parents:
-            message = (f"output folder {final} contains the input {item.name}; a run replaces its "
-                       f"output folder, so choose a run.output outside the input folders")
+            message = (
+                f"output folder {final} contains the input {item.name}; a run replaces its "
+                f"output folder, so choose a run.output outside the input folders"
+            )
             raise RecipeError(message)
     if final.is_dir() and any(final.iterdir()) and not (final / OUTPUT_MARKER).is_file():
-        message = (f"output folder {final} already exists and was not written by geomet (no "
-                   f"{OUTPUT_MARKER}); choose another run.output or empty that folder")
+        message = (
+            f"output folder {final} already exists and was not written by geomet (no "
+            f"{OUTPUT_MARKER}); choose another run.output or empty that folder"
+        )
         raise RecipeError(message)
     return final
 
 
 @contextlib.contextmanager
 def staged_directory(final: str | Path) -> Iterator[Path]:
-    """Yield an empty temporary folder beside ``final``; move it onto ``final`` if the block succeeds.
+    """Yield an empty folder beside ``final``; move it onto ``final`` if the block succeeds.
 
-    An existing ``final`` is set aside first and deleted only once the new folder is in place; if the
+    An existing ``final`` is set aside first and deleted only once the new folder is in place; if
     block raises, the temporary folder is deleted and ``final`` is left exactly as it was.
     """
     final = Path(final).resolve()

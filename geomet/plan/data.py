@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 
 import networkx as nx
 import numpy as np
+from pyomo.common.gc_manager import PauseGC
 
 from geomet.errors import InputDataError
 from geomet.plan.economics import Economics, discount_factors, leach_value_usd_t, mill_value_usd_t
@@ -131,6 +132,11 @@ def blend_data(
     -------
     BlendData
     """
+    with PauseGC():  # indexing makes many small tuples; collections would rescan every object
+        return _index(graph, periods, days, economics, mining, milp)
+
+
+def _index(graph, periods, days, economics, mining, milp) -> BlendData:
     economics = economics or Economics()
     milp = milp or MilpSpec()
     if mining not in MINING_MODES:
@@ -151,7 +157,8 @@ def blend_data(
         raise InputDataError(message)
     position = {p: i for i, p in enumerate(periods)}
     n_t = len(periods)
-    kinds = dict(graph.nodes(data="kind"))
+    node_data = dict(graph.nodes(data=True))
+    kinds = {n: a.get("kind") for n, a in node_data.items()}
 
     bad = [
         (n, a.get("period"))
@@ -168,7 +175,7 @@ def blend_data(
 
     def column(name):
         return np.fromiter(
-            (graph.nodes[n].get(name, 0.0) for n in feeders), dtype=float, count=len(feeders)
+            (node_data[n].get(name, 0.0) for n in feeders), dtype=float, count=len(feeders)
         )
 
     proc_value = {
@@ -199,7 +206,7 @@ def blend_data(
     for u, v, cost in edges:
         if kinds[u] not in ("source", "stockpile"):
             continue  # processor -> product edges carry no decision
-        node = graph.nodes[u]
+        node = node_data[u]
         value = -(cost or 0.0)
         value -= e.mining_cost_usd_t if kinds[u] == "source" else node.get("rehandle_usd_t", 0.0)
         if v in proc_value:
@@ -238,5 +245,5 @@ def blend_data(
         out_flows=dict(out_flows),
         out_flows_all=dict(out_all),
         inventory_index={k: i for i, k in enumerate(inventories)},
-        node_data=dict(graph.nodes(data=True)),
+        node_data=node_data,
     )

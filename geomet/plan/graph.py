@@ -20,6 +20,7 @@ from collections.abc import Mapping, Sequence
 import networkx as nx
 import numpy as np
 import pandas as pd
+from pyomo.common.gc_manager import PauseGC
 
 from geomet.errors import InputDataError
 from geomet.plan.parcels import PARCEL_ATTRIBUTES, weighted_mean
@@ -51,27 +52,34 @@ def route_graph(nodes: Sequence[Mapping], edges: Sequence[Mapping]) -> nx.DiGrap
     InputDataError
         On duplicate or unknown nodes, unknown kinds, or any rule of :func:`validate_route_graph`.
     """
-    graph = nx.DiGraph()
     problems = []
+    node_items = []
+    seen: set = set()
     for record in nodes:
         attrs = dict(record)
         node = attrs.pop("node")
-        if node in graph:
+        if node in seen:
             problems.append(f"node {node!r} is defined twice")
+            continue
+        seen.add(node)
         if attrs.get("kind") not in NODE_KINDS:
             problems.append(
                 f"node {node!r} has kind {attrs.get('kind')!r}; expected one of {NODE_KINDS}"
             )
-        graph.add_node(node, **attrs)
+        node_items.append((node, attrs))
+    edge_items = []
     for record in edges:
         attrs = dict(record)
         u, v = attrs.pop("from"), attrs.pop("to")
-        unknown = [n for n in (u, v) if n not in graph]
+        unknown = [n for n in (u, v) if n not in seen]
         if unknown:
             problems.append(f"edge {u!r} -> {v!r} names unknown node(s) {unknown}")
             continue
         attrs.setdefault("cost_usd_t", 0.0)
-        graph.add_edge(u, v, **attrs)
+        edge_items.append((u, v, attrs))
+    graph = nx.DiGraph()
+    graph.add_nodes_from(node_items)  # batch insertion: much faster than one call per item
+    graph.add_edges_from(edge_items)
     if problems:
         message = "route graph is not valid: " + "; ".join(problems[:20])
         raise InputDataError(message)
@@ -211,6 +219,42 @@ def blend_route_graph(
     networkx.DiGraph
         Validated with :func:`validate_route_graph`.
     """
+    with PauseGC():  # many small dicts: collections would rescan every live object
+        return _blend_route_graph(
+            parcels,
+            limits,
+            mill=mill,
+            leach=leach,
+            stockpiles=stockpiles,
+            stockpile_capacity_t=stockpile_capacity_t,
+            stockpile_opening_t=stockpile_opening_t,
+            rehandle_usd_t=rehandle_usd_t,
+            stockpile_cost_usd_t=stockpile_cost_usd_t,
+            stockpile_min_cu_pct=stockpile_min_cu_pct,
+            stockpile_groups=stockpile_groups,
+            leach_min_oxide_ratio_frac=leach_min_oxide_ratio_frac,
+            mill_max_oxide_ratio_frac=mill_max_oxide_ratio_frac,
+            waste_max_cu_pct=waste_max_cu_pct,
+        )
+
+
+def _blend_route_graph(
+    parcels: pd.DataFrame,
+    limits: Mapping[str, np.ndarray],
+    *,
+    mill: bool,
+    leach: bool,
+    stockpiles: bool,
+    stockpile_capacity_t: float,
+    stockpile_opening_t: Mapping[str, float] | None,
+    rehandle_usd_t: float,
+    stockpile_cost_usd_t: float,
+    stockpile_min_cu_pct: float,
+    stockpile_groups: Mapping[str, str] | None,
+    leach_min_oxide_ratio_frac: float,
+    mill_max_oxide_ratio_frac: float | None,
+    waste_max_cu_pct: float | None,
+) -> nx.DiGraph:
     attrs = [c for c in (*PARCEL_ATTRIBUTES, "oxide_ratio_frac") if c in parcels.columns]
     opening = dict(stockpile_opening_t or {})
     nodes: list[dict] = [

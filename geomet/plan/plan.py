@@ -8,6 +8,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
+from pyomo.common.gc_manager import PauseGC
 
 from geomet.errors import ModelInfeasible
 from geomet.plan.data import BlendData
@@ -23,7 +24,7 @@ from geomet.plan.results import (
     schedule_table,
     stockpile_table,
 )
-from geomet.plan.solve import SolveOptions, compile_or_infeasible, solve_compiled
+from geomet.plan.solve import SolveOptions, WarmStart, compile_or_infeasible, solve_compiled
 
 SCENARIO_COLUMNS = (
     "scenario",
@@ -59,6 +60,8 @@ class BlendResult:
     diagnosis: pd.DataFrame
     timings: dict[str, float] = field(default_factory=dict)
     counts: dict[str, int] = field(default_factory=dict)
+    warm_start: WarmStart | None = None  # basis for warm-starting related scenarios
+    simplex_iterations: int = 0
 
     @property
     def feasible(self) -> bool:
@@ -78,7 +81,11 @@ def _empty(columns) -> pd.DataFrame:
 
 
 def solve_blend(
-    data: BlendData, options: SolveOptions | None = None, *, diagnose: bool = True
+    data: BlendData,
+    options: SolveOptions | None = None,
+    *,
+    diagnose: bool = True,
+    warm_start: WarmStart | None = None,
 ) -> BlendResult:
     """Build the model, hand it to HiGHS and return the plan's tables.
 
@@ -90,14 +97,21 @@ def solve_blend(
         Solver settings.
     diagnose : bool
         On infeasibility, run the elastic model and the IIS (see :mod:`geomet.plan.diagnose`).
+    warm_start : WarmStart, optional
+        ``result.warm_start`` of a related plan (same parcels and routes, other limit values):
+        an LP then re-solves by dual simplex from that basis.
 
     Returns
     -------
     BlendResult
         Timings: ``build_s`` (Pyomo model), ``handover_s`` (standard-form compile and
-        ``passModel``), ``solve_s`` (HiGHS), ``report_s`` (tables).
+        ``passModel``), ``solve_s`` (HiGHS), ``ranging_s``, ``report_s`` (tables).
     """
-    options = options or SolveOptions()
+    with PauseGC():  # build, hand-over and reporting allocate many small objects
+        return _solve_blend(data, options or SolveOptions(), diagnose, warm_start)
+
+
+def _solve_blend(data: BlendData, options: SolveOptions, diagnose: bool, warm_start) -> BlendResult:
     start = time.perf_counter()
     bm = build_blend_model(data)
     timings = {"build_s": time.perf_counter() - start}
@@ -105,9 +119,10 @@ def solve_blend(
     cm = compile_or_infeasible(bm)
     out = None
     if cm is not None:
-        out = solve_compiled(cm, options)
+        out = solve_compiled(cm, options, warm_start=warm_start)
         timings["handover_s"] = cm.compile_s + out.handover_s
         timings["solve_s"] = out.solve_s
+        timings["ranging_s"] = out.ranging_s
     if out is None or out.status == "infeasible":
         start = time.perf_counter()
         diagnosis = diagnose_infeasibility(data, options) if diagnose else _empty(DIAGNOSIS_COLUMNS)
@@ -136,6 +151,8 @@ def solve_blend(
         _empty(DIAGNOSIS_COLUMNS),
         timings,
         counts,
+        out.warm_start,
+        out.simplex_iterations,
     )
     timings["report_s"] = time.perf_counter() - start
     return result

@@ -286,7 +286,10 @@ def limits_table(bm: BlendModel, cm: CompiledModel, out: HighsOutcome) -> pd.Dat
                 used = activity
                 price = -dual
                 if out.row_range is not None and r is not None:
-                    valid = (_finite_or_nan(out.row_range[0][r]), _finite_or_nan(out.row_range[1][r]))
+                    valid = (
+                        _finite_or_nan(out.row_range[0][r]),
+                        _finite_or_nan(out.row_range[1][r]),
+                    )
             slack = (info.value - used) if info.sense == "max" else (used - info.value)
             scale = max(abs(info.value), 1.0)
             binding = (

@@ -9,7 +9,7 @@ LP): an empty array is not a safe way to say "no integers" in highspy's array in
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pyomo.environ as pyo
@@ -97,6 +97,29 @@ class HighsOutcome:
     solve_s: float
     has_duals: bool
     row_range: tuple[np.ndarray, np.ndarray] | None = None  # rhs values where the dual holds
+    ranging_s: float = 0.0
+    simplex_iterations: int = 0
+    warm_start: WarmStart | None = None  # basis of this solve, to start related solves from
+
+
+@dataclass(frozen=True)
+class WarmStart:
+    """A simplex basis and the structure of the model it belongs to."""
+
+    signature: tuple
+    basis: object  # highspy.HighsBasis
+
+
+def signature(cm: CompiledModel) -> tuple:
+    """Rows, columns and non-zero pattern of a compiled model (equal = a basis carries over)."""
+    return (
+        cm.A.shape,
+        cm.A.nnz,
+        hash(cm.A.indptr.tobytes()),
+        hash(cm.A.indices.tobytes()),
+        hash(tuple(cm.row_family)),
+        hash(cm.row_index.tobytes()),
+    )
 
 
 def compile_blend_model(bm: BlendModel) -> CompiledModel:
@@ -110,7 +133,7 @@ def compile_blend_model(bm: BlendModel) -> CompiledModel:
     ------
     InfeasibleConstraintException
         (from Pyomo) when a row has no variables and cannot hold, e.g. a minimum feed with no
-        route into the processor; :func:`solve_blend_model` reports it as infeasible.
+        route into the processor; :func:`geomet.plan.solve_blend` reports it as infeasible.
     """
     start = time.perf_counter()
     m = bm.model
@@ -156,11 +179,22 @@ def compile_blend_model(bm: BlendModel) -> CompiledModel:
     )
 
 
-def solve_compiled(cm: CompiledModel, options: SolveOptions | None = None) -> HighsOutcome:
+def solve_compiled(
+    cm: CompiledModel, options: SolveOptions | None = None, *, warm_start=None
+) -> HighsOutcome:
     """Pass the matrices to HiGHS, solve, and return values and duals.
 
     For a MILP the duals come from the LP with the binaries fixed at their solution (the usual
     convention for prices around an integer plan).
+
+    Parameters
+    ----------
+    cm : CompiledModel
+    options : SolveOptions, optional
+    warm_start : WarmStart, optional
+        Basis of an earlier solve of a model with the same rows and columns (a scenario that
+        changes limit values only). An LP then starts dual simplex from it instead of solving
+        from scratch; ignored for a MILP or when the structure differs.
     """
     import highspy
 
@@ -169,7 +203,12 @@ def solve_compiled(cm: CompiledModel, options: SolveOptions | None = None) -> Hi
         message = f"solver algorithm must be one of {ALGORITHMS}; got {options.algorithm!r}"
         raise SolverError(message)
     start = time.perf_counter()
+    warm = warm_start is not None and not cm.n_integer and warm_start.signature == signature(cm)
+    if warm:
+        options = replace(options, algorithm="simplex")
     h = _highs(cm, cm.integrality, cm.col_lower, cm.col_upper, options)
+    if warm:
+        h.setBasis(warm_start.basis)
     handover = time.perf_counter() - start
     start = time.perf_counter()
     h.run()
@@ -234,7 +273,11 @@ def solve_compiled(cm: CompiledModel, options: SolveOptions | None = None) -> Hi
         row_dual = np.asarray(sol.row_dual, float)
         col_dual = np.asarray(sol.col_dual, float)
         ranged = h
+    basis = ranged.getBasis()
+    start_next = WarmStart(signature(cm), basis) if basis.valid and not cm.n_integer else None
+    start = time.perf_counter()
     row_range = _row_ranging(ranged) if options.ranging and has_duals else None
+    ranging_s = time.perf_counter() - start
     return HighsOutcome(
         status,
         status_text,
@@ -248,6 +291,9 @@ def solve_compiled(cm: CompiledModel, options: SolveOptions | None = None) -> Hi
         solve_s,
         has_duals,
         row_range,
+        ranging_s,
+        int(info.simplex_iteration_count),
+        start_next,
     )
 
 

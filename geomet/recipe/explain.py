@@ -42,7 +42,9 @@ class SectionDoc:
     options: tuple[OptionDoc, ...]
 
 
-def section_docs(section: str | None = None, *, registry: Mapping | None = None) -> list[SectionDoc]:
+def section_docs(
+    section: str | None = None, *, registry: Mapping | None = None
+) -> list[SectionDoc]:
     """Documentation of every recipe section, or of one (``"run"``, ``"inputs"``, a step name...).
 
     A key path inside a section (``"blend.mill"``) narrows the options listed to that path.
@@ -55,20 +57,32 @@ def section_docs(section: str | None = None, *, registry: Mapping | None = None)
     steps = _registry(registry)
     tables = ", ".join(sorted(known_tables(steps)))
     docs = [
-        SectionDoc("run", "[run]", "What to run and where the results go.",
-                   tuple(model_options(RunSection, "run"))),
-        SectionDoc("inputs", "[inputs.<table>]",
-                   f"One section per input file; <table> is one of: {tables}.",
-                   tuple(model_options(InputSection, "inputs.<table>"))),
-        SectionDoc("detection", "[detection]",
-                   "How results reported below (or above) a detection limit become numbers.",
-                   tuple(model_options(DetectionSection, "detection"))),
+        SectionDoc(
+            "run",
+            "[run]",
+            "What to run and where the results go.",
+            tuple(model_options(RunSection, "run")),
+        ),
+        SectionDoc(
+            "inputs",
+            "[inputs.<table>]",
+            f"One section per input file; <table> is one of: {tables}.",
+            tuple(model_options(InputSection, "inputs.<table>")),
+        ),
+        SectionDoc(
+            "detection",
+            "[detection]",
+            "How results reported below (or above) a detection limit become numbers.",
+            tuple(model_options(DetectionSection, "detection")),
+        ),
     ]
     for name, step in _run_order(steps).items():
         needs = ", ".join(step.needs) or "none"
         produces = ", ".join(step.produces) or "none"
         summary = f"{step.summary} Needs: {needs}. Produces: {produces}.".strip()
-        docs.append(SectionDoc(name, f"[{name}]", summary, tuple(model_options(step.options, name))))
+        docs.append(
+            SectionDoc(name, f"[{name}]", summary, tuple(model_options(step.options, name)))
+        )
     if section is None:
         return docs
     head = section.split(".")[0]
@@ -76,15 +90,22 @@ def section_docs(section: str | None = None, *, registry: Mapping | None = None)
         if doc.name == head:
             if section == head:
                 return [doc]
-            chosen = tuple(o for o in doc.options
-                           if o.key == section or o.key.startswith(section + "."))
+            chosen = tuple(
+                o
+                for o in doc.options
+                if o.key == section or o.key.startswith((section + ".", section + "["))
+            )
             if not chosen:
-                message = (f"section [{head}] has no option {section!r}"
-                           f"{suggest(section, [o.key for o in doc.options])}")
+                message = (
+                    f"section [{head}] has no option {section!r}"
+                    f"{suggest(section, [o.key for o in doc.options])}"
+                )
                 raise RecipeError(message)
             return [SectionDoc(doc.name, doc.header, doc.summary, chosen)]
-    message = (f"unknown recipe section {section!r}{suggest(head, [d.name for d in docs])}; "
-               f"sections: {', '.join(d.name for d in docs)}")
+    message = (
+        f"unknown recipe section {section!r}{suggest(head, [d.name for d in docs])}; "
+        f"sections: {', '.join(d.name for d in docs)}"
+    )
     raise RecipeError(message)
 
 
@@ -114,10 +135,15 @@ def explain(section: str | None = None, *, registry: Mapping | None = None, widt
                 facts.append("allowed: " + ", ".join(opt.allowed))
             if opt.limits:
                 facts.append(f"limits: {opt.limits}")
-            out += textwrap.wrap("; ".join(facts), width, initial_indent="      ",
-                                 subsequent_indent="      ")
-            out += textwrap.wrap(opt.description or "(no description)", width,
-                                 initial_indent="      ", subsequent_indent="      ")
+            out += textwrap.wrap(
+                "; ".join(facts), width, initial_indent="      ", subsequent_indent="      "
+            )
+            out += textwrap.wrap(
+                opt.description or "(no description)",
+                width,
+                initial_indent="      ",
+                subsequent_indent="      ",
+            )
         out.append("")
     return "\n".join(out).rstrip() + "\n"
 
@@ -133,20 +159,43 @@ def model_options(model_cls: type[BaseModel], prefix: str) -> list[OptionDoc]:
             out.extend(model_options(nested, key))
             continue
         default = _default(info)
-        out.append(OptionDoc(
-            key=key,
-            type=type_name(annotation),
-            default=default,
-            allowed=allowed_values(annotation),
-            limits=_limits(info.metadata),
-            description=" ".join((info.description or "").split()),
-        ))
+        out.append(
+            OptionDoc(
+                key=key,
+                type=type_name(annotation),
+                default=default,
+                allowed=allowed_values(annotation),
+                limits=_limits(info.metadata, annotation),
+                description=" ".join((info.description or "").split()),
+            )
+        )
+        contained = _contained_model(annotation)
+        if contained is not None:
+            kind, inner = contained
+            out.extend(model_options(inner, f"{key}[]" if kind == "list" else f"{key}.<name>"))
     return out
 
 
 def _model_class(annotation) -> type[BaseModel] | None:
     if isinstance(annotation, type) and issubclass(annotation, BaseModel):
         return annotation
+    return None
+
+
+def _contained_model(annotation) -> tuple[str, type[BaseModel]] | None:
+    """``("list", M)`` for ``list[M]``, ``("dict", M)`` for ``dict[str, M]`` (also if optional)."""
+    origin = typing.get_origin(annotation)
+    args = typing.get_args(annotation)
+    if origin in (typing.Union, types.UnionType, typing.Annotated):
+        for arg in args:
+            found = _contained_model(arg)
+            if found is not None:
+                return found
+        return None
+    if origin in (list, tuple) and args and _model_class(args[0]) is not None:
+        return "list", args[0]
+    if origin in (dict, Mapping) and len(args) == 2 and _model_class(args[1]) is not None:
+        return "dict", args[1]
     return None
 
 
@@ -174,7 +223,9 @@ def toml_value(value: Any) -> str:
     if isinstance(value, dict):
         if not value:
             return "{}"
-        return "{ " + ", ".join(f"{_toml_key(k)} = {toml_value(v)}" for k, v in value.items()) + " }"
+        return (
+            "{ " + ", ".join(f"{_toml_key(k)} = {toml_value(v)}" for k, v in value.items()) + " }"
+        )
     return str(value)
 
 
@@ -191,7 +242,9 @@ def allowed_values(annotation) -> tuple[str, ...]:
     if isinstance(annotation, type) and issubclass(annotation, enum.Enum):
         return tuple(toml_value(m.value) for m in annotation)
     if origin in (dict, Mapping):
-        return allowed_values(typing.get_args(annotation)[-1]) if typing.get_args(annotation) else ()
+        return (
+            allowed_values(typing.get_args(annotation)[-1]) if typing.get_args(annotation) else ()
+        )
     if origin in (typing.Union, types.UnionType, list, tuple, set, frozenset, typing.Annotated):
         out: list[str] = []
         for arg in typing.get_args(annotation):
@@ -200,12 +253,18 @@ def allowed_values(annotation) -> tuple[str, ...]:
     return ()
 
 
-_SIMPLE = {bool: "true/false", int: "integer", float: "number", str: "text",
-           type(None): "none"}
+_SIMPLE = {
+    bool: "true/false",
+    int: "integer",
+    float: "number",
+    str: "text",
+    type(None): "none",
+    Any: "any value",
+}
 
 
 def type_name(annotation) -> str:
-    """Plain-words type of a recipe value (``number``, ``list of text``, ``table text -> number``)."""
+    """Plain-words type of a recipe value (``number``, ``list of text``, ``table text -> text``)."""
     if annotation in _SIMPLE:
         return _SIMPLE[annotation]
     origin = typing.get_origin(annotation)
@@ -233,16 +292,19 @@ def type_name(annotation) -> str:
     return str(annotation)
 
 
-def _limits(metadata) -> str:
+def _limits(metadata, annotation=None) -> str:
     parts = []
     for item in metadata:
         for attr, sign in (("ge", ">="), ("gt", ">"), ("le", "<="), ("lt", "<")):
             value = getattr(item, attr, None)
-            if value is not None and isinstance(item, (annotated_types.Ge, annotated_types.Gt,
-                                                       annotated_types.Le, annotated_types.Lt)):
+            if value is not None and isinstance(
+                item,
+                (annotated_types.Ge, annotated_types.Gt, annotated_types.Le, annotated_types.Lt),
+            ):
                 parts.append(f"{sign} {value}")
+        unit = "character(s)" if annotation is str else "item(s)"
         if isinstance(item, annotated_types.MinLen):
-            parts.append(f"at least {item.min_length} item(s)")
+            parts.append(f"at least {item.min_length} {unit}")
         if isinstance(item, annotated_types.MaxLen):
-            parts.append(f"at most {item.max_length} item(s)")
+            parts.append(f"at most {item.max_length} {unit}")
     return ", ".join(parts)

@@ -41,7 +41,7 @@ class RecipeProblem:
 
 @dataclass
 class Recipe:
-    """A validated recipe: typed sections, every registered step's options, and where it came from."""
+    """A validated recipe: typed sections, every registered step's options, and its source."""
 
     run: RunSection
     inputs: dict[str, InputSection]
@@ -50,6 +50,7 @@ class Recipe:
     text: str = ""
     path: Path | None = None
     base_dir: Path = field(default_factory=Path.cwd)
+    sections: tuple[str, ...] = ()  # the top-level sections the recipe gives, in its order
 
     @property
     def output_dir(self) -> Path:
@@ -105,7 +106,7 @@ def _registry(registry: Mapping | None) -> Mapping:
 
 
 def known_tables(registry: Mapping) -> set[str]:
-    """Table names an ``[inputs.<table>]`` section may give: the input tables and any a step needs."""
+    """Table names ``[inputs.<table>]`` may give: the input tables and any table a step needs."""
     names = set(INPUT_TABLES)
     produced = {t for s in registry.values() for t in s.produces}
     for step in registry.values():
@@ -144,8 +145,13 @@ def load_recipe(path: str | Path, *, registry: Mapping | None = None) -> Recipe:
     except UnicodeDecodeError as exc:
         message = f"recipe {path.name} is not UTF-8 text ({exc.reason} at byte {exc.start})"
         raise RecipeError(message) from exc
-    return parse_recipe(text, base_dir=path.resolve().parent, source=path.name, registry=registry,
-                        path=path.resolve())
+    return parse_recipe(
+        text,
+        base_dir=path.resolve().parent,
+        source=path.name,
+        registry=registry,
+        path=path.resolve(),
+    )
 
 
 def parse_recipe(
@@ -174,21 +180,29 @@ def parse_recipe(
             hint = suggest(key, sections)
             if not hint and key in RunSection.model_fields:
                 hint = f"; did you mean to put it under [run] (run.{key})?"
-            problems.append(RecipeProblem(
-                key, f"unknown section or key (sections are run, inputs, detection and the step "
-                     f"names listed by `geomet steps`){hint}"))
+            problems.append(
+                RecipeProblem(
+                    key,
+                    f"unknown section or key (sections are run, inputs, detection and the step "
+                    f"names listed by `geomet steps`){hint}",
+                )
+            )
 
     run = _validate(RunSection, _table(data, "run"), "run", problems)
     detection = _validate(DetectionSection, _table(data, "detection"), "detection", problems)
     if "run" not in data:
-        problems.append(RecipeProblem("run", "missing section [run] (it gives at least "
-                                             "steps = [...])"))
+        problems.append(
+            RecipeProblem("run", "missing section [run] (it gives at least steps = [...])")
+        )
 
     asked = _asked_steps(data, run)
     for name in asked:
         if name not in steps:
-            problems.append(RecipeProblem(
-                "run.steps", f"unknown step {name!r}{suggest(name, steps)} (see `geomet steps`)"))
+            problems.append(
+                RecipeProblem(
+                    "run.steps", f"unknown step {name!r}{suggest(name, steps)} (see `geomet steps`)"
+                )
+            )
 
     inputs = _validate_inputs(data.get("inputs", {}), base_dir, steps, problems)
 
@@ -205,8 +219,16 @@ def parse_recipe(
             options[name] = model
 
     raise_recipe_problems(problems, source)
-    return Recipe(run=run, inputs=inputs, detection=detection, options=options, text=text,
-                  path=path, base_dir=base_dir)
+    return Recipe(
+        sections=tuple(data),
+        run=run,
+        inputs=inputs,
+        detection=detection,
+        options=options,
+        text=text,
+        path=path,
+        base_dir=base_dir,
+    )
 
 
 def validate_step_options(
@@ -224,8 +246,11 @@ def validate_step_options(
     problems: list[RecipeProblem] = []
     for name in [*steps, *options]:
         if name not in registry:
-            problems.append(RecipeProblem(name, f"unknown step {name!r}{suggest(name, registry)} "
-                                                f"(see `geomet steps`)"))
+            problems.append(
+                RecipeProblem(
+                    name, f"unknown step {name!r}{suggest(name, registry)} (see `geomet steps`)"
+                )
+            )
     out: dict[str, BaseModel] = {}
     for name in steps:
         if name not in registry:
@@ -238,8 +263,11 @@ def validate_step_options(
         if isinstance(given, BaseModel):
             given = given.model_dump()
         if not isinstance(given, Mapping):
-            problems.append(RecipeProblem(name, f"expected a dict of options or a "
-                                                f"{model_cls.__name__}; got {given!r}"))
+            problems.append(
+                RecipeProblem(
+                    name, f"expected a dict of options or a {model_cls.__name__}; got {given!r}"
+                )
+            )
             continue
         model = _validate(model_cls, dict(given), name, problems)
         if model is not None:
@@ -268,8 +296,9 @@ def _defaults_or_none(model_cls: type[BaseModel]) -> BaseModel | None:
         return None
 
 
-def _validate(model_cls: type[BaseModel], values: dict, prefix: str,
-              problems: list[RecipeProblem]) -> BaseModel | None:
+def _validate(
+    model_cls: type[BaseModel], values: dict, prefix: str, problems: list[RecipeProblem]
+) -> BaseModel | None:
     try:
         return model_cls.model_validate(values)
     except ValidationError as exc:
@@ -277,8 +306,9 @@ def _validate(model_cls: type[BaseModel], values: dict, prefix: str,
         return None
 
 
-def pydantic_problems(exc: ValidationError, prefix: str,
-                      model_cls: type[BaseModel]) -> list[RecipeProblem]:
+def pydantic_problems(
+    exc: ValidationError, prefix: str, model_cls: type[BaseModel]
+) -> list[RecipeProblem]:
     """Turn a pydantic ``ValidationError`` into recipe problems with key paths and suggestions."""
     out = []
     for err in exc.errors(include_url=False):
@@ -359,8 +389,9 @@ def _fields_at(model_cls: type[BaseModel], loc: list[str]) -> list[str]:
     return []
 
 
-def _validate_inputs(raw: Any, base_dir: Path, steps: Mapping,
-                     problems: list[RecipeProblem]) -> dict[str, InputSection]:
+def _validate_inputs(
+    raw: Any, base_dir: Path, steps: Mapping, problems: list[RecipeProblem]
+) -> dict[str, InputSection]:
     inputs: dict[str, InputSection] = {}
     if not isinstance(raw, dict):
         problems.append(RecipeProblem("inputs", f"expected sections [inputs.<table>]; got {raw!r}"))
@@ -374,8 +405,9 @@ def _validate_inputs(raw: Any, base_dir: Path, steps: Mapping,
             problems.append(RecipeProblem(key, f"unknown input table{hint}{listing}"))
             continue
         if not isinstance(section, dict):
-            problems.append(RecipeProblem(key, f"expected a section [{key}] with path = ...; "
-                                               f"got {section!r}"))
+            problems.append(
+                RecipeProblem(key, f"expected a section [{key}] with path = ...; got {section!r}")
+            )
             continue
         model = _validate(InputSection, section, key, problems)
         given = section.get("path")

@@ -1,4 +1,4 @@
-"""Typed sections of a recipe that are not step options: ``[run]``, ``[inputs.<table>]``, ``[detection]``.
+"""Recipe sections that are not step options: ``[run]``, ``[inputs.<table>]``, ``[detection]``.
 
 Each section is a pydantic model, so one declaration gives the validation, the defaults and the
 text that ``geomet recipe --explain`` prints. Step sections (``[composite]``, ``[blend]``...) are
@@ -84,9 +84,12 @@ class RunSection(_Section):
 class InputSection(_Section):
     """An ``[inputs.<table>]`` section: one input file and how to read it."""
 
-    path: str = Field(..., description="File to read (CSV, XLSX or Parquet), relative to the recipe.")
+    path: str = Field(
+        ..., description="File to read (CSV, XLSX or Parquet), relative to the recipe."
+    )
     sheet: str | None = Field(
-        None, description="Worksheet to read when the file is an XLSX workbook (default: the first)."
+        None,
+        description="Worksheet to read when the file is an XLSX workbook (default: the first).",
     )
     columns: dict[str, str] = Field(
         default_factory=dict,
@@ -98,7 +101,7 @@ class InputSection(_Section):
     units: dict[str, str] = Field(
         default_factory=dict,
         description=(
-            "Units of the file's values by canonical column, e.g. { au_gpt = \"ppb\" }; values are "
+            'Units of the file\'s values by canonical column, e.g. { au_gpt = "ppb" }; values are '
             "converted to the unit that the canonical name carries."
         ),
     )
@@ -118,12 +121,12 @@ class DetectionSection(_Section):
         0.5,
         gt=0.0,
         le=1.0,
-        description="Fraction of the detection limit substituted when rule = \"fraction\".",
+        description='Fraction of the detection limit substituted when rule = "fraction".',
     )
     text_codes: dict[str, TextCodeMeaning] | None = Field(
         None,
         description=(
-            "Laboratory text codes and their meaning, e.g. { BDL = \"below_detection\", "
+            'Laboratory text codes and their meaning, e.g. { BDL = "below_detection", '
             'IS = "missing" }. Omit to use the built-in code table.'
         ),
     )

@@ -16,6 +16,7 @@ import dataclasses
 import heapq
 import logging
 import platform
+import re
 import sys
 import time
 import warnings
@@ -36,8 +37,20 @@ from geomet.recipe.loader import Recipe, load_recipe, suggest, validate_step_opt
 from geomet.run.registry import Plot, Step, StepContext, load_steps
 
 LOGGER_NAME = "geomet.run"
-PACKAGES = ("numpy", "pandas", "scipy", "scikit-learn", "pyomo", "highspy", "networkx",
-            "openpyxl", "pyarrow", "pydantic", "matplotlib")
+PACKAGE_LOGGER = "geomet"  # the run log and the command's messages take every geomet.* logger
+PACKAGES = (
+    "numpy",
+    "pandas",
+    "scipy",
+    "scikit-learn",
+    "pyomo",
+    "highspy",
+    "networkx",
+    "openpyxl",
+    "pyarrow",
+    "pydantic",
+    "matplotlib",
+)
 
 
 @dataclass
@@ -136,14 +149,17 @@ def order_steps(asked: Iterable[str], registry: Mapping[str, Step] | None = None
                     heapq.heappush(ready, (registry[other].order, position[other], other))
     if len(ordered) < len(asked):
         stuck = sorted(set(asked) - {s.name for s in ordered})
-        message = (f"steps {', '.join(stuck)} need each other's tables, so no order runs them; "
-                   "check their needs and produces (`geomet steps`)")
+        message = (
+            f"steps {', '.join(stuck)} need each other's tables, so no order runs them; "
+            "check their needs and produces (`geomet steps`)"
+        )
         raise RecipeError(message)
     return ordered
 
 
-def check_step_inputs(ordered: list[Step], available: Iterable[str],
-                      registry: Mapping[str, Step] | None = None) -> None:
+def check_step_inputs(
+    ordered: list[Step], available: Iterable[str], registry: Mapping[str, Step] | None = None
+) -> None:
     """Raise :class:`StepInputMissing` if a step needs a table that nothing before it provides.
 
     The message lists every missing table with what would provide it: an input section, or the
@@ -156,8 +172,10 @@ def check_step_inputs(ordered: list[Step], available: Iterable[str],
     for step in ordered:
         for table in step.needs:
             if table not in have:
-                problems.append(f"step {step.name!r} needs table {table!r}; "
-                                f"{_provider_hint(table, registry, asked)}")
+                problems.append(
+                    f"step {step.name!r} needs table {table!r}; "
+                    f"{_provider_hint(table, registry, asked)}"
+                )
         have.update(step.produces)
     if problems:
         message = "missing input tables:\n  - " + "\n  - ".join(problems)
@@ -229,27 +247,52 @@ def run_steps(
     typed = validate_step_options(options, [s.name for s in ordered], registry=registry)
     check_step_inputs(ordered, tables, registry)
     started = _now()
-    result = _execute(dict(tables), ordered, typed, seed, plot_dir=plot_dir,
-                      show_progress=show_progress, sources=sources)
-    result.provenance = provenance(seed=seed, steps=[s.name for s in ordered],
-                                   parameters={n: o.model_dump(mode="json") for n, o in typed.items()},
-                                   started=started)
+    result = _execute(
+        dict(tables),
+        ordered,
+        typed,
+        seed,
+        plot_dir=plot_dir,
+        show_progress=show_progress,
+        sources=sources,
+    )
+    result.provenance = provenance(
+        seed=seed,
+        steps=[s.name for s in ordered],
+        parameters={n: o.model_dump(mode="json") for n, o in typed.items()},
+        started=started,
+    )
     return result
 
 
-def _execute(tables: dict[str, pd.DataFrame], ordered: list[Step], options: Mapping[str, BaseModel],
-             seed: int, *, plot_dir=None, show_progress=False, sources=None) -> RunResult:
+def _execute(
+    tables: dict[str, pd.DataFrame],
+    ordered: list[Step],
+    options: Mapping[str, BaseModel],
+    seed: int,
+    *,
+    plot_dir=None,
+    show_progress=False,
+    sources=None,
+) -> RunResult:
     log = logging.getLogger(LOGGER_NAME)
     extras: dict[str, Any] = {"sources": dict(sources or {})}
-    ctx = StepContext(tables=MappingProxyType(dict(tables)), seed=seed,
-                      plot_dir=Path(plot_dir) if plot_dir is not None else None, log=log,
-                      show_progress=show_progress, extras=extras)
+    ctx = StepContext(
+        tables=MappingProxyType(dict(tables)),
+        seed=seed,
+        plot_dir=Path(plot_dir) if plot_dir is not None else None,
+        log=log,
+        show_progress=show_progress,
+        extras=extras,
+    )
     result = RunResult(tables=tables, plots=ctx.plots, notes=ctx.notes, extras=extras)
     for number, step in enumerate(ordered, 1):
         missing = [t for t in step.needs if t not in tables]
         if missing:
-            message = (f"step {step.name!r} needs table {missing[0]!r}, which an earlier step "
-                       f"declared but did not return")
+            message = (
+                f"step {step.name!r} needs table {missing[0]!r}, which an earlier step "
+                f"declared but did not return"
+            )
             raise StepInputMissing(message)
         ctx.tables = MappingProxyType(dict(tables))
         first_note = len(ctx.notes)
@@ -272,24 +315,32 @@ def _execute(tables: dict[str, pd.DataFrame], ordered: list[Step], options: Mapp
         produced, replaced = _take_tables(step, returned, tables, log)
         for name in produced:
             result.produced[name] = step.produces[name]
-        record = StepRecord(step.name, step.summary, seconds, produced, replaced,
-                            list(ctx.notes[first_note:]))
+        record = StepRecord(
+            step.name, step.summary, seconds, produced, replaced, list(ctx.notes[first_note:])
+        )
         result.steps.append(record)
         shapes = ", ".join(f"{n} ({len(tables[n])} rows)" for n in [*produced, *replaced])
-        log.info("step %s: finished in %.2f s%s", step.name, seconds,
-                 f"; tables: {shapes}" if shapes else "")
+        log.info(
+            "step %s: finished in %.2f s%s",
+            step.name,
+            seconds,
+            f"; tables: {shapes}" if shapes else "",
+        )
     return result
 
 
-def _take_tables(step: Step, returned: Any, tables: dict[str, pd.DataFrame],
-                 log: logging.Logger) -> tuple[list[str], list[str]]:
+def _take_tables(
+    step: Step, returned: Any, tables: dict[str, pd.DataFrame], log: logging.Logger
+) -> tuple[list[str], list[str]]:
     if returned is None:
         returned = {}
     if not isinstance(returned, Mapping) or not all(
         isinstance(v, pd.DataFrame) for v in returned.values()
     ):
-        message = (f"step {step.name!r} returned {type(returned).__name__}; a step must return a "
-                   "dict of table name -> pandas DataFrame")
+        message = (
+            f"step {step.name!r} returned {type(returned).__name__}; a step must return a "
+            "dict of table name -> pandas DataFrame"
+        )
         raise GeometError(message)
     produced, replaced = [], []
     for name, frame in returned.items():
@@ -298,8 +349,12 @@ def _take_tables(step: Step, returned: Any, tables: dict[str, pd.DataFrame],
         elif name in tables:
             replaced.append(name)
         else:
-            log.warning("step %s returned table %r, which it does not declare; it is kept for "
-                        "later steps but not written", step.name, name)
+            log.warning(
+                "step %s returned table %r, which it does not declare; it is kept for "
+                "later steps but not written",
+                step.name,
+                name,
+            )
         tables[name] = frame
     for name in step.produces:
         if name not in returned:
@@ -309,7 +364,7 @@ def _take_tables(step: Step, returned: Any, tables: dict[str, pd.DataFrame],
 
 # --- recipes -------------------------------------------------------------------------------------
 def detection_rule(recipe: Recipe):
-    """The recipe's ``[detection]`` section as a :class:`geomet.drillholes.censored.DetectionRule`."""
+    """The recipe's ``[detection]`` as a :class:`geomet.drillholes.censored.DetectionRule`."""
     from geomet.drillholes.censored import DetectionRule
 
     values = recipe.detection.model_dump(exclude_none=True)
@@ -339,19 +394,37 @@ def read_inputs(recipe: Recipe) -> tuple[dict[str, pd.DataFrame], dict[str, Any]
     for name, section in recipe.inputs.items():
         path = recipe.input_path(name)
         digest = file_sha256(path)
-        read = read_table(path, table=name, column_map=section.columns or None,
-                          units=section.units or None, detection=rule, sheet=section.sheet)
+        read = read_table(
+            path,
+            table=name,
+            column_map=section.columns or None,
+            units=section.units or None,
+            detection=rule,
+            sheet=section.sheet,
+        )
         tables[name] = read.table
         sources[name] = read
-        records.append({"table": name, "file": section.path, "sha256": digest,
-                        "rows": len(read.table), "columns": len(read.table.columns)})
+        records.append(
+            {
+                "table": name,
+                "file": section.path,
+                "sha256": digest,
+                "rows": len(read.table),
+                "columns": len(read.table.columns),
+            }
+        )
         log.info("input %s: %s, %d rows, sha256 %s", name, section.path, len(read.table), digest)
     return tables, sources, records
 
 
-def run_loaded_recipe(recipe: Recipe, *, steps: list[str] | None = None,
-                      overrides: Mapping[str, Mapping[str, Any]] | None = None,
-                      show_progress: bool = False, plot_dir: str | Path | None = None) -> RunResult:
+def run_loaded_recipe(
+    recipe: Recipe,
+    *,
+    steps: list[str] | None = None,
+    overrides: Mapping[str, Mapping[str, Any]] | None = None,
+    show_progress: bool = False,
+    plot_dir: str | Path | None = None,
+) -> RunResult:
     """Read ``recipe``'s inputs and run its steps (or ``steps``) in memory; writes no output folder.
 
     ``overrides`` replaces single option values, e.g. ``{"check": {"on_error": "warn"}}``.
@@ -359,15 +432,32 @@ def run_loaded_recipe(recipe: Recipe, *, steps: list[str] | None = None,
     registry = load_steps()
     names = list(recipe.run.steps if steps is None else steps)
     ordered = order_steps(names, registry)
+    unused = [n for n in recipe.sections if n in registry and n not in names]
+    if unused:
+        logging.getLogger(LOGGER_NAME).info(
+            "options given for steps not run this time: %s", ", ".join(unused)
+        )
     options = _options_with(recipe, [s.name for s in ordered], overrides, registry)
     check_step_inputs(ordered, recipe.inputs, registry)
     started = _now()
     tables, sources, records = read_inputs(recipe)
-    result = _execute(tables, ordered, options, recipe.run.seed, plot_dir=plot_dir,
-                      show_progress=show_progress, sources=sources)
-    result.provenance = provenance(seed=recipe.run.seed, steps=[s.name for s in ordered],
-                                   parameters=_parameters(recipe, options), started=started,
-                                   recipe=recipe, inputs=records)
+    result = _execute(
+        tables,
+        ordered,
+        options,
+        recipe.run.seed,
+        plot_dir=plot_dir,
+        show_progress=show_progress,
+        sources=sources,
+    )
+    result.provenance = provenance(
+        seed=recipe.run.seed,
+        steps=[s.name for s in ordered],
+        parameters=_parameters(recipe, options),
+        started=started,
+        recipe=recipe,
+        inputs=records,
+    )
     return result
 
 
@@ -387,8 +477,9 @@ def _parameters(recipe: Recipe, options: Mapping[str, BaseModel]) -> dict[str, A
     return params
 
 
-def run_recipe(path: str | Path, *, out: str | Path | None = None,
-               show_progress: bool | None = None) -> RunResult:
+def run_recipe(
+    path: str | Path, *, out: str | Path | None = None, show_progress: bool | None = None
+) -> RunResult:
     """Run the recipe file ``path`` and write its output folder.
 
     Parameters
@@ -433,55 +524,97 @@ def run_recipe(path: str | Path, *, out: str | Path | None = None,
         show_progress = _stderr_is_terminal()
 
     with staged_directory(out_dir) as stage, _run_log(stage / "run.log") as log:
-        log.info("geomet %s: recipe %s, %d steps: %s", geomet.__version__,
-                 recipe.path.name if recipe.path else "", len(ordered),
-                 ", ".join(s.name for s in ordered))
+        log.info(
+            "geomet %s: recipe %s, %d steps: %s",
+            geomet.__version__,
+            recipe.path.name if recipe.path else "",
+            len(ordered),
+            ", ".join(s.name for s in ordered),
+        )
         result = run_loaded_recipe(recipe, show_progress=show_progress, plot_dir=stage / "plots")
         for folder in ("tables", "plots", "models"):
             (stage / folder).mkdir(exist_ok=True)
         started = time.perf_counter()
         write_tables(result.outputs, stage / "tables", recipe.run.table_format)
-        log.info("wrote %d tables (%s) in %.1f s", len(result.outputs), recipe.run.table_format,
-                 time.perf_counter() - started)
+        log.info(
+            "wrote %d tables (%s) in %.1f s",
+            len(result.outputs),
+            recipe.run.table_format,
+            time.perf_counter() - started,
+        )
         for name, payload in sorted(result.extras.get("json_files", {}).items()):
-            write_json(payload, stage / "models" / f"{name}.json")
+            write_json(payload, stage / "models" / f"{_file_stem(name)}.json")
         recipe_name = recipe.path.name if recipe.path else "recipe.toml"
         atomic_write_text(stage / recipe_name, recipe.text)
         result.provenance["finished_utc"] = _now()
         write_json(result.provenance, stage / "provenance.json")
         started = time.perf_counter()
         write_workbook(stage / recipe.run.workbook, result)
-        log.info("wrote the workbook %s in %.1f s", recipe.run.workbook,
-                 time.perf_counter() - started)
+        log.info(
+            "wrote the workbook %s in %.1f s", recipe.run.workbook, time.perf_counter() - started
+        )
         # Plot paths point into the staged folder; point them at the final one.
-        result.plots[:] = [dataclasses.replace(p, path=out_dir / p.path.relative_to(stage))
-                           for p in result.plots]
-        log.info("run finished: %d tables, %d plots, %d warnings", len(result.produced),
-                 len(result.plots), len(result.warnings))
+        result.plots[:] = [
+            dataclasses.replace(p, path=out_dir / p.path.relative_to(stage)) for p in result.plots
+        ]
+        log.info(
+            "run finished: %d tables, %d plots, %d warnings",
+            len(result.produced),
+            len(result.plots),
+            len(result.warnings),
+        )
     result.out_dir = out_dir
     return result
+
+
+_FILE_STEM = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,100}$")
+
+
+def _file_stem(name: str) -> str:
+    """``name`` if it is a plain file name (letters, digits, ``_.-``), else a GeometError."""
+    if not _FILE_STEM.match(str(name)) or ".." in str(name):
+        message = (
+            f"a step asked to save model {name!r}; model names must be plain file names "
+            "(letters, digits, '_', '.', '-')"
+        )
+        raise GeometError(message)
+    return str(name)
 
 
 @contextlib.contextmanager
 def _run_log(path: Path) -> Iterator[logging.Logger]:
     log = logging.getLogger(LOGGER_NAME)
-    handler = logging.FileHandler(path, encoding="utf-8")
-    formatter = logging.Formatter("%(asctime)s %(levelname)-7s %(message)s", "%Y-%m-%dT%H:%M:%SZ")
-    formatter.converter = time.gmtime
+    with log_to(logging.FileHandler(path, encoding="utf-8"), timestamps=True):
+        try:
+            yield log
+        except BaseException as exc:
+            first = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+            log.error("run failed: %s", first)
+            raise
+
+
+@contextlib.contextmanager
+def log_to(handler: logging.Handler, *, timestamps: bool = False, prefix: str = ""):
+    """Send INFO and higher messages of every ``geomet.*`` logger to ``handler`` for a while."""
+    if timestamps:
+        formatter = logging.Formatter(
+            "%(asctime)s %(levelname)-7s %(message)s", "%Y-%m-%dT%H:%M:%SZ"
+        )
+        formatter.converter = time.gmtime
+    else:
+        formatter = logging.Formatter(f"{prefix}%(message)s")
     handler.setFormatter(formatter)
-    old_level = log.level
-    log.addHandler(handler)
-    if log.getEffectiveLevel() > logging.INFO:
-        log.setLevel(logging.INFO)
+    package = logging.getLogger(PACKAGE_LOGGER)
+    old_level = package.level
+    package.addHandler(handler)
+    if package.getEffectiveLevel() > logging.INFO:
+        package.setLevel(logging.INFO)
     try:
-        yield log
-    except BaseException as exc:
-        log.error("run failed: %s", str(exc).splitlines()[0] if str(exc) else type(exc).__name__)
-        raise
+        yield handler
     finally:
-        log.removeHandler(handler)
+        package.removeHandler(handler)
         handler.close()
-        log.setLevel(old_level)
+        package.setLevel(old_level)
 
 
 def _stderr_is_terminal() -> bool:
@@ -506,8 +639,15 @@ def package_versions() -> dict[str, str]:
     return out
 
 
-def provenance(*, seed: int, steps: list[str], parameters: Mapping[str, Any], started: str,
-               recipe: Recipe | None = None, inputs: list[dict] | None = None) -> dict[str, Any]:
+def provenance(
+    *,
+    seed: int,
+    steps: list[str],
+    parameters: Mapping[str, Any],
+    started: str,
+    recipe: Recipe | None = None,
+    inputs: list[dict] | None = None,
+) -> dict[str, Any]:
     """The record of how a result was made (stored as ``provenance.json`` and in the workbook)."""
     record: dict[str, Any] = {
         "geomet_version": geomet.__version__,

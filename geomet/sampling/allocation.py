@@ -123,7 +123,13 @@ def bounded_allocation(n, weights, *, existing=None, lower=None, upper=None):
         raise InputDataError(msg)
     if hi.sum() <= n:
         return hi.astype(float).copy()
+    if w.max(initial=0.0) > 0:
+        w = w / w.max()  # the allocation does not depend on the weights' scale
+    with np.errstate(over="ignore", invalid="ignore"):  # lambda * tiny weight may overflow
+        return _solve_lambda(n, w, e, lo, hi)
 
+
+def _solve_lambda(n, w, e, lo, hi):
     def total(lam):
         return np.clip(lam * w - e, lo, hi).sum()
 

@@ -699,7 +699,9 @@ def solve_pmedian(
     *,
     milp_max_pairs: int = 10_000,
     time_limit_s: float = 30.0,
-    rel_gap: float = 1e-6,
+    rel_gap: float = 1e-4,
+    n_starts: int = 1,
+    seed: int = 0,
 ) -> PMedianResult:
     """Solve heuristically, then by MILP (started from the heuristic) when the problem is small.
 
@@ -712,6 +714,8 @@ def solve_pmedian(
         MILP time limit [s].
     rel_gap : float, optional
         MILP relative gap [fraction].
+    n_starts, seed : int, optional
+        Starts of the heuristic and their seed (:func:`solve_pmedian_heuristic`).
 
     Returns
     -------
@@ -719,7 +723,7 @@ def solve_pmedian(
         The MILP's answer when it was run (never worse than the heuristic's, which is its start);
         otherwise the heuristic's.
     """
-    heur = solve_pmedian_heuristic(problem)
+    heur = solve_pmedian_heuristic(problem, n_starts=n_starts, seed=seed)
     pairs = problem.n_demand * problem.n_candidates
     if pairs == 0 or pairs > milp_max_pairs:
         return heur

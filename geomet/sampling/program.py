@@ -142,6 +142,7 @@ def plan_testwork(
     time_limit_s: float = 30.0,
     max_demand_points: int = 300,
     aggregation: str = "kmeans",
+    heuristic_starts: int = 1,
     coverage_within_std: float = 0.5,
     coverage_gap_share_frac: float = 0.10,
     exclusions=None,
@@ -191,7 +192,7 @@ def plan_testwork(
     max_per_hole : int, optional
     min_separation_m : float, optional
         [m]
-    milp_max_pairs, time_limit_s, max_demand_points, aggregation
+    milp_max_pairs, time_limit_s, max_demand_points, aggregation, heuristic_starts
         See :func:`geomet.sampling.selection.select_samples`.
     coverage_within_std : float
         Standardised distance counted as covered.
@@ -269,6 +270,12 @@ def plan_testwork(
         )
     excl = exclusions_frame(exclusions)
     unav = unavailable_mask(composites, testwork, excl)
+    no_density = int((~np.isfinite(composites["density_t_m3"].to_numpy(dtype=float))).sum())
+    if no_density:
+        notes.append(
+            f"testwork selection: {no_density} composite(s) have no density_t_m3, so their core "
+            "mass is unknown and they form no candidate"
+        )
     timings["prepare"] = time.perf_counter() - t0
     t0 = time.perf_counter()
     cands = build_candidates(
@@ -366,6 +373,7 @@ def plan_testwork(
         min_separation_m=min_separation_m,
         milp_max_pairs=milp_max_pairs,
         time_limit_s=time_limit_s,
+        heuristic_starts=heuristic_starts,
         attribute_weights=attribute_weights,
         seed=seed,
     )

@@ -307,6 +307,7 @@ def select_samples(
     seed: int = 0,
     high_low_sd: float = 0.75,
     shortlist_max: int = 4000,
+    heuristic_starts: int = 1,
 ) -> SelectionResult:
     """Choose each domain's allocated number of candidates by the p-median rule.
 
@@ -347,6 +348,8 @@ def select_samples(
         works on a shortlist: the union of each demand point's nearest candidates, with as
         many neighbours per point as keep the union near this size (a candidate-list strategy;
         the candidates left out are those no demand point has among its nearest).
+    heuristic_starts : int, optional
+        Starts of the greedy + swap heuristic (the first greedy, the others random).
 
     Notes
     -----
@@ -434,7 +437,13 @@ def select_samples(
                 hole_capacity=capacity,
                 min_separation_m=min_separation_m,
             )
-            res = solve_pmedian(problem, milp_max_pairs=milp_max_pairs, time_limit_s=time_limit_s)
+            res = solve_pmedian(
+                problem,
+                milp_max_pairs=milp_max_pairs,
+                time_limit_s=time_limit_s,
+                n_starts=heuristic_starts,
+                seed=seed,
+            )
             chosen = ci[res.chosen]
             for c in chosen:
                 if cap_left is not None:
@@ -550,14 +559,16 @@ def format_periods(periods: Sequence[int]) -> str:
 def describe_periods(periods, tonnes, *, minor_frac: float = 0.05, mostly_frac: float = 0.5) -> str:
     """The periods in which some tonnes are mined, in words.
 
-    Periods holding less than ``minor_frac`` of the tonnes are left out; when the heaviest
-    periods that together hold ``mostly_frac`` are at most half of them and hold at least 1.25
-    times their even share, they are named too.
+    Periods holding less than ``minor_frac`` of the tonnes are left out, and the rest given as
+    their first to last period; when the heaviest periods that together hold ``mostly_frac`` are
+    at most half of them and hold at least 1.25 times their even share, they are named too.
 
     Examples
     --------
     >>> describe_periods([1, 1, 1, 2, 3, 4], [10, 10, 10, 2, 2, 2])
-    'periods 1-4, mostly period 1'
+    'periods 1-4, mostly 1'
+    >>> describe_periods([2, 3, 5, 8], [1, 1, 1, 1])
+    'periods 2-8'
     """
     pt = pd.Series(np.asarray(tonnes, dtype=float)).groupby(np.asarray(periods, dtype=float)).sum()
     pt = pt[np.isfinite(pt.index.to_numpy(dtype=float))]
@@ -565,12 +576,13 @@ def describe_periods(periods, tonnes, *, minor_frac: float = 0.05, mostly_frac: 
     if total <= 0 or pt.empty:
         return "no scheduled period"
     pt = pt[pt >= minor_frac * total]
-    text = format_periods([int(p) for p in pt.index])
+    first, last = int(pt.index.min()), int(pt.index.max())
+    text = f"period {first}" if first == last else f"periods {first}-{last}"
     heavy = pt.sort_values(ascending=False, kind="stable")
     top = heavy.index[: int(np.searchsorted(heavy.cumsum().to_numpy(), mostly_frac * total)) + 1]
     top_share = float(heavy.loc[top].sum() / total)
     if len(pt) > 1 and len(top) <= len(pt) / 2 and top_share >= 1.25 * len(top) / len(pt):
-        text += ", mostly " + format_periods([int(p) for p in top])
+        text += ", mostly " + format_periods([int(p) for p in top]).split(" ", 1)[1]
     return text
 
 
@@ -598,10 +610,7 @@ def _describe_chosen(
         t_rep = float(tonnes[mine].sum())
         represented.append(t_rep)
         share.append(t_rep / dom_tonnes if dom_tonnes > 0 else 0.0)
-        if period is not None and mine.any():
-            ptxt = describe_periods(period[mine], tonnes[mine])
-        else:
-            ptxt = "no scheduled period"
+        ptxt = describe_periods(period[mine], tonnes[mine]) if period is not None else ""
         period_text.append(ptxt)
         dev = (cand_z[chosen[k]] - mean_z) / sd_z
         order = np.argsort(-np.abs(dev))
@@ -613,9 +622,9 @@ def _describe_chosen(
         if not mine.any():
             reasons.append(f"chosen for domain {dom} but nearest to no block: a spare sample")
         else:
+            when = f"{ptxt}, " if ptxt else ""
             reasons.append(
-                f"stands for {format_tonnes(t_rep)} of domain {dom} ({share[-1]:.0%}), "
-                f"{ptxt}, {part}"
+                f"stands for {format_tonnes(t_rep)} of domain {dom} ({share[-1]:.0%}), {when}{part}"
             )
     out["tonnes_represented_t"] = represented
     out["domain_share_frac"] = share

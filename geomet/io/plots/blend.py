@@ -137,7 +137,10 @@ def plant_limits_figure(plant: pd.DataFrame, limits: pd.DataFrame):
 
 
 def scenarios_figure(scenarios: pd.DataFrame):
-    """Scenario comparison: present value, Cu recovered and mill clay severity side by side."""
+    """Scenario comparison: present value, Cu recovered and mill clay severity side by side.
+
+    Bars after the first are labelled with their change against the first scenario (the base).
+    """
     fig, axes = plt.subplots(1, 3, figsize=(12, 4))
     names = scenarios["scenario"].astype(str).tolist()
     x = np.arange(len(names))
@@ -151,9 +154,14 @@ def scenarios_figure(scenarios: pd.DataFrame):
         vals = pd.to_numeric(scenarios[col], errors="coerce").to_numpy(float) / scale
         colours = np.where(feasible, "#2f6c8f", "#b04a5a")
         ax.bar(x, np.nan_to_num(vals), color=colours)
-        for xi, ok in zip(x, feasible, strict=True):
+        base = vals[0] if len(vals) and np.isfinite(vals[0]) and vals[0] != 0 else np.nan
+        for xi, ok, v in zip(x, feasible, vals, strict=True):
             if not ok:
                 ax.text(xi, 0, "infeasible", rotation=90, ha="center", va="bottom", fontsize=8)
+            elif xi > 0 and np.isfinite(base):
+                ax.text(
+                    xi, v, f"{(v / base - 1) * 100:+.1f} %", ha="center", va="bottom", fontsize=7
+                )
         ax.set_xticks(x, names, rotation=30, ha="right", fontsize=8)
         ax.set_title(title, fontsize=9)
     fig.tight_layout()

@@ -162,6 +162,16 @@ class SolverSettings(StepOptions):
     )
     time_limit_s: float | None = Field(120.0, gt=0, description="Time limit per solve [s].")
     mip_gap_frac: float = Field(1e-4, ge=0, description="Relative MIP gap at which to stop.")
+    warm_start_scenarios: bool = Field(
+        False,
+        description="Re-solve LP scenarios by dual simplex from the base plan's basis when only "
+        "limit values change (faster for small changes; interior point may win for large ones).",
+    )
+    ranging: bool = Field(
+        True,
+        description="Report the range of each tonnage/energy/acid limit over which its "
+        "shadow price holds (HiGHS ranging; a little extra time).",
+    )
     threads: int | None = Field(
         None, ge=1, description="Solver threads (HiGHS default when unset)."
     )
@@ -328,6 +338,7 @@ def _solve_options(options: BlendOptions) -> SolveOptions:
         algorithm=s.algorithm,
         time_limit_s=s.time_limit_s,
         mip_rel_gap=s.mip_gap_frac,
+        ranging=s.ranging,
         threads=s.threads,
     )
 
@@ -368,7 +379,10 @@ def blend_step(ctx: StepContext, options: BlendOptions) -> dict[str, pd.DataFram
     for name, opts, changes in ctx.progress(variants, "blend scenarios"):
         data = build_data(parcels, plant_limits, opts)
         graphs[name] = data.graph
-        res = solve_blend(data, _solve_options(opts))
+        warm = None
+        if name != "base" and opts.solver.warm_start_scenarios and "base" in results:
+            warm = results["base"].warm_start
+        res = solve_blend(data, _solve_options(opts), warm_start=warm)
         results[name] = res
         rows.append(scenario_summary(name, res, changes))
         if len(res.diagnosis):

@@ -117,6 +117,10 @@ class DomainsOptions(StepOptions):
         "column, op, value). Operators: >=, >, <=, <, ==, !=.",
     )
     rules_default: str = Field("Other", description="Domain of rows no rule matches.")
+    compare_columns: list[str] = Field(
+        default_factory=lambda: ["lith_code"], description="Further categorical columns "
+        "(e.g. logged lithology) cross-tabulated against the domains when present.",
+    )
     stability_seed_offsets: list[int] = Field(
         default_factory=lambda: [1, 2, 3], description="Seed offsets of the re-fits used to "
         "report stability (adjusted Rand index); empty to skip.",
@@ -190,6 +194,8 @@ def _crosstab(df, options, ctx):
         refs.append("site_domain")
     if "rule_domain" in df.columns and options.method != "rules":
         refs.append("rule_domain")
+    refs += [c for c in options.compare_columns
+             if c in df.columns and c not in refs and df[c].notna().any()]
     for ref in refs:
         tab, stats = compare_domains(df["domain"], df[ref], df["length_m"], reference_name=ref)
         tab["adjusted_rand_idx"] = stats["adjusted_rand_idx"]
@@ -204,8 +210,8 @@ def _crosstab(df, options, ctx):
     if not frames:
         out = pd.DataFrame({c: pd.Series(dtype=float if c.endswith(("_m", "_frac", "_idx"))
                                           else object) for c in CROSSTAB_COLUMNS})
-        note = ("No site domains or domain rules were given, so there is nothing to compare "
-                "the domains with.")
+        note = ("No site domains, domain rules or comparison columns were given, so there is "
+                "nothing to compare the domains with.")
         out.attrs["note"] = note
         ctx.note("Domains: " + note)
         return out, stats_all
@@ -380,48 +386,15 @@ def _domains(ctx: StepContext, options: DomainsOptions) -> dict[str, pd.DataFram
     out: dict[str, pd.DataFrame] = {}
     # blocks
     if blocks is not None:
-        bvalid = (has_composition(blocks, parts) if len(blocks) and features is not None
-                  else np.zeros(len(blocks), dtype=bool))
-        if options.method == "rules":
-            bvalid = np.ones(len(blocks), dtype=bool)
-        b_id = np.zeros(len(blocks), dtype=int)
-        if bvalid.any():
-            bv = blocks.loc[bvalid]
-            if options.method == "rules":
-                rd = apply_rules(bv, rules, options.rules_default, table="blocks_mineralogy")
-                name_to_id = {v: k for k, v in names.items() if k > 0}
-                next_id = max(name_to_id.values(), default=0) + 1
-                for nm in sorted(set(rd) - set(name_to_id)):
-                    name_to_id[nm] = next_id
-                    names[next_id] = nm
-                    next_id += 1
-                b_id[bvalid] = rd.map(name_to_id).to_numpy(int)
-            else:
-                Zb = features.transform(bv)
-                if clusterer is not None:
-                    raw_b = clusterer.predict(Zb)
-                    # clusters removed by smoothing: nearest surviving centre
-                    cent = clusterer.centroids()
-                    alive = np.array(sorted(raw_to_id))
-                    lookup = {}
-                    for k in range(clusterer.n_domains_):
-                        if k in raw_to_id:
-                            lookup[k] = raw_to_id[k]
-                        else:
-                            near = alive[np.argmin(np.linalg.norm(cent[alive] - cent[k], axis=1))]
-                            lookup[k] = raw_to_id[int(near)]
-                    b_id[bvalid] = np.vectorize(lookup.get)(raw_b) if len(raw_b) else raw_b
-                else:  # site codes: nearest composites in feature space
-                    train = domain_id[valid] > 0
-                    knn = KNeighborsClassifier(n_neighbors=min(15, int(train.sum())),
-                                               weights="distance")
-                    knn.fit(Z[train], domain_id[valid][train])
-                    b_id[bvalid] = knn.predict(Zb)
-                    model_info["block_classifier"] = "15 nearest composites in feature space"
+        b_id, n_assigned = _assign_blocks(
+            blocks, options=options, parts=parts, features=features, clusterer=clusterer,
+            rules=rules, names=names, raw_to_id=raw_to_id, Z=Z,
+            composite_ids=domain_id[valid], model_info=model_info,
+        )
         blocks["domain_id"] = b_id
         blocks["domain"] = [names.get(i, UNCLASSIFIED) for i in b_id]
         out["blocks_domained"] = blocks
-        ctx.note(f"Domains: {int(bvalid.sum())} of {len(blocks)} blocks assigned to domains "
+        ctx.note(f"Domains: {n_assigned} of {len(blocks)} blocks assigned to domains "
                  "with the composites' fitted model.")
 
     # stability of the data-driven clustering
@@ -513,6 +486,48 @@ def _domains(ctx: StepContext, options: DomainsOptions) -> dict[str, pd.DataFram
     out["domain_summary"] = summary
     out["domain_crosstab"] = crosstab
     return out
+
+
+def _assign_blocks(blocks, *, options, parts, features, clusterer, rules, names, raw_to_id,
+                   Z, composite_ids, model_info) -> tuple[np.ndarray, int]:
+    """Domain id of every block: by the rules, the fitted clusterer, or (site codes) the 15
+    nearest composites in feature space. Adds rule domains only blocks have to ``names``."""
+    b_id = np.zeros(len(blocks), dtype=int)
+    if options.method == "rules":
+        rd = apply_rules(blocks, rules, options.rules_default, table="blocks_mineralogy")
+        name_to_id = {v: k for k, v in names.items() if k > 0}
+        next_id = max(name_to_id.values(), default=0) + 1
+        for nm in sorted(set(rd) - set(name_to_id)):
+            name_to_id[nm] = next_id
+            names[next_id] = nm
+            next_id += 1
+        return rd.map(name_to_id).to_numpy(int), len(blocks)
+    if features is None or not len(blocks):
+        return b_id, 0
+    bvalid = has_composition(blocks, parts)
+    if not bvalid.any():
+        return b_id, 0
+    Zb = features.transform(blocks.loc[bvalid])
+    if clusterer is not None:
+        raw_b = clusterer.predict(Zb)
+        # a cluster that smoothing removed hands its blocks to the nearest surviving centre
+        cent = clusterer.centroids()
+        alive = np.array(sorted(raw_to_id))
+        lookup = np.empty(clusterer.n_domains_, dtype=int)
+        for k in range(clusterer.n_domains_):
+            near = k if k in raw_to_id else int(
+                alive[np.argmin(np.linalg.norm(cent[alive] - cent[k], axis=1))])
+            lookup[k] = raw_to_id[near]
+        b_id[bvalid] = lookup[raw_b]
+        return b_id, int(bvalid.sum())
+    train = composite_ids > 0
+    if not train.any():
+        return b_id, 0
+    knn = KNeighborsClassifier(n_neighbors=min(15, int(train.sum())), weights="distance")
+    knn.fit(Z[train], composite_ids[train])
+    b_id[bvalid] = knn.predict(Zb)
+    model_info["block_classifier"] = "15 nearest composites in feature space (distance-weighted)"
+    return b_id, int(bvalid.sum())
 
 
 def _transform_info(features: Pipeline) -> dict[str, Any]:

@@ -136,6 +136,13 @@ class CompositeOptions(StepOptions):
     density_weighted: bool = Field(
         True, description="Weight grades by length x density where density_t_m3 is known."
     )
+    censored_frac: bool = Field(
+        False,
+        description=(
+            "Add <column>_censored_frac to composites: the fraction of each composite's length "
+            "whose value was below detection or over range (substituted by the detection rule)."
+        ),
+    )
     tables: list[str] | None = Field(
         None,
         description=(
@@ -190,7 +197,7 @@ def composite_step(ctx: StepContext, options: CompositeOptions) -> dict[str, pd.
             f"composite: ignored {int(orphan_surveys.sum())} survey rows of holes with no collar"
         )
         surveys = surveys.loc[~orphan_surveys]
-    merged = merge_intervals(sources)
+    merged = merge_intervals(sources, censored_frac=options.censored_frac)
     composites = composite_intervals(
         merged,
         method=options.method,
@@ -224,6 +231,10 @@ def composite_step(ctx: StepContext, options: CompositeOptions) -> dict[str, pd.
     ctx.note(
         f"composite: {len(located)} composites ({options.method}, {options.length_m:g} m) in "
         f"{n_holes} holes from {', '.join(sources)}; mean sampled fraction {mean_cov:.2f}; "
-        f"censored-value flags are not carried into composites"
+        + (
+            "censored fractions carried as <column>_censored_frac"
+            if options.censored_frac
+            else "censored-value flags are not carried into composites"
+        )
     )
     return {"composites": located}

@@ -102,6 +102,9 @@ class TestworkSelectionOptions(StepOptions):
         description="Blocks of a domain are grouped into "
         "at most this many weighted representatives.",
     )
+    heuristic_starts: int = Field(
+        1, ge=1, description="Starts of the greedy + swap heuristic (more: slower, rarely worse)."
+    )
     aggregation: Literal["kmeans", "grid"] = Field("kmeans", description="How blocks are grouped.")
     coverage_within_std: float = Field(
         0.5,
@@ -190,6 +193,7 @@ def testwork_selection(ctx: StepContext, options: TestworkSelectionOptions):
         time_limit_s=options.time_limit_s,
         max_demand_points=options.max_demand_points,
         aggregation=options.aggregation,
+        heuristic_starts=options.heuristic_starts,
         coverage_within_std=options.coverage_within_std,
         coverage_gap_share_frac=options.coverage_gap_share_frac,
         exclusions=[e.model_dump() for e in options.exclusions],
