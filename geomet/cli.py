@@ -11,6 +11,7 @@ import argparse
 import contextlib
 import logging
 import sys
+import textwrap
 from collections.abc import Sequence
 from pathlib import Path
 
@@ -45,6 +46,11 @@ exit status: 0 success; 1 `geomet check` found errors in the data; 2 a problem w
 the inputs or a step (the message says which)."""
 
 
+def _para(text: str) -> str:
+    """A help paragraph wrapped to 96 columns (the raw formatter keeps line breaks as given)."""
+    return textwrap.fill(text, 96)
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of the ``geomet`` command."""
     parser = argparse.ArgumentParser(
@@ -59,10 +65,12 @@ def build_parser() -> argparse.ArgumentParser:
     run = sub.add_parser(
         "run",
         help="run a recipe and write its output folder",
-        description="Read the recipe's input files, run its steps and write the output folder: "
-        "the workbook, tables/ (CSV or Parquet copies of every produced table), plots/, "
-        "models/, run.log, a copy of the recipe and provenance.json. The folder is "
-        "replaced only when the whole run succeeds.",
+        description=_para(
+            "Read the recipe's input files, run its steps and write the output folder: "
+            "the workbook, tables/ (CSV or Parquet copies of every produced table), plots/, "
+            "models/, run.log, a copy of the recipe and provenance.json. The folder is "
+            "replaced only when the whole run succeeds."
+        ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="example:\n  geomet run recipes/demo.toml --out results/vellantra_q3",
     )
@@ -74,9 +82,11 @@ def build_parser() -> argparse.ArgumentParser:
     check = sub.add_parser(
         "check",
         help="check the recipe's input files and report every problem",
-        description="Read the recipe's input files and run only the check step (with "
-        'on_error = "warn"). Problems are printed grouped by file, with line numbers. '
-        "Exit status 1 when there are errors, 0 when there are none (warnings allowed).",
+        description=_para(
+            "Read the recipe's input files and run only the check step (with "
+            'on_error = "warn"). Problems are printed grouped by file, with line numbers. '
+            "Exit status 1 when there are errors, 0 when there are none (warnings allowed)."
+        ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="example:\n  geomet check recipes/demo.toml",
     )
@@ -93,8 +103,10 @@ def build_parser() -> argparse.ArgumentParser:
     comp = sub.add_parser(
         "composite",
         help="check and composite the drill-hole data into one file",
-        description="Run the check and composite steps of the recipe (with their recipe options) "
-        "and write the composites to a .csv or .parquet file.",
+        description=_para(
+            "Run the check and composite steps of the recipe (with their recipe options) "
+            "and write the composites to a .csv or .parquet file."
+        ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="example:\n  geomet composite recipes/demo.toml --out vellantra_composites.parquet",
     )
@@ -106,9 +118,11 @@ def build_parser() -> argparse.ArgumentParser:
     demo = sub.add_parser(
         "demo",
         help="write the invented Vellantra demo data set",
-        description="Write the input files of the invented Vellantra porphyry Cu-Au deposit "
-        "(Orrin Vale Resources): collars, surveys, assays, scan, lithology, density, "
-        "testwork, blocks, schedule and plant limits. Same seed, same files.",
+        description=_para(
+            "Write the input files of the invented Vellantra porphyry Cu-Au deposit "
+            "(Orrin Vale Resources): collars, surveys, assays, scan, lithology, density, "
+            "testwork, blocks, schedule and plant limits. Same seed, same files."
+        ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="example:\n  geomet demo --out vellantra_demo --seed 7 --holes 60",
     )
@@ -122,9 +136,11 @@ def build_parser() -> argparse.ArgumentParser:
     recipe = sub.add_parser(
         "recipe",
         help="explain the recipe options",
-        description="Print every recipe option: key path, type, default, allowed values and "
-        "meaning. Give a section (run, inputs, detection, or a step name) or a key "
-        "path inside one (e.g. blend.mill) to narrow the list.",
+        description=_para(
+            "Print every recipe option: key path, type, default, allowed values and "
+            "meaning. Give a section (run, inputs, detection, or a step name) or a key "
+            "path inside one (e.g. blend.mill) to narrow the list."
+        ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
         epilog="examples:\n  geomet recipe --explain\n  geomet recipe --explain detection",
     )
@@ -144,8 +160,9 @@ def build_parser() -> argparse.ArgumentParser:
     steps = sub.add_parser(
         "steps",
         help="list the registered steps with their needs and products",
-        description="List every step a recipe can run, in run order, with the "
-        "tables it needs and produces.",
+        description=_para(
+            "List every step a recipe can run, in run order, with the tables it needs and produces."
+        ),
     )
     steps.set_defaults(handler=_cmd_steps)
     return parser

@@ -89,15 +89,37 @@ def unit_of(name: str) -> str:
     return ""
 
 
+# Packages that add many derived columns describe them beside the code that computes them; the
+# glossary reads those tables on first use (lazily, because those packages import the glossary).
+PACKAGE_COLUMN_TABLES = ("geomet.minerals.columns",)
+_package_columns: dict[str, Column] | None = None
+
+
+def _lookup(name: str) -> Column | None:
+    global _package_columns
+    if name in COLUMNS:
+        return COLUMNS[name]
+    if _package_columns is None:
+        import importlib
+
+        found: dict[str, Column] = {}
+        for module_name in PACKAGE_COLUMN_TABLES:
+            table = importlib.import_module(module_name).COLUMN_DESCRIPTIONS
+            for key, (text, risk) in table.items():
+                found[key] = Column(key, _suffix_unit(key), text, risk)
+        _package_columns = found
+    return _package_columns.get(name)
+
+
 def describe(name: str) -> str:
     """Return the plain-words description of a column ('' when unknown)."""
-    col = COLUMNS.get(name)
+    col = _lookup(name)
     return col.description if col else ""
 
 
 def is_risk_column(name: str) -> bool:
     """True for columns where a higher value means more process risk (workbook colour scales)."""
-    col = COLUMNS.get(name)
+    col = _lookup(name)
     if col is not None:
         return col.risk
     return name.startswith(("clay_", "sulfate_", "acid_")) or name.endswith("_loss_tph")

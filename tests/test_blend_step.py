@@ -202,7 +202,7 @@ def test_stockpile_groups_option():
 
 def test_warm_started_scenarios_give_the_same_plans():
     sweep = {"mill.clay_severity_max_idx": [5.0, 9.0]}
-    _c, cold = _run(BlendOptions(sweep=sweep))
+    _c, cold = _run(BlendOptions(sweep=sweep, solver={"warm_start_scenarios": False}))
     _w, warm = _run(BlendOptions(sweep=sweep, solver={"warm_start_scenarios": True}))
     np.testing.assert_allclose(
         warm["blend_scenarios"]["value_pv_usd"], cold["blend_scenarios"]["value_pv_usd"], rtol=1e-9

@@ -142,6 +142,24 @@ def test_json_round_trip(samples, method):
         assert name in cal.RESPONSES
 
 
+def test_concentrate_model_recovers_power_law(samples):
+    df, X = samples
+    base = cal.ConcentrateModel(calibrate=False).fit(X, None)
+    y = np.exp(1.2) * base.mechanistic(X) ** 0.4
+    model = cal.ConcentrateModel().fit(X, y)
+    assert model.log_scale_ == pytest.approx(1.2, abs=1e-6)
+    assert model.exponent_ == pytest.approx(0.4, abs=1e-6)
+    back = cal.model_from_json(json.loads(json.dumps(cal.model_to_json(model))))
+    np.testing.assert_allclose(back.predict(X), model.predict(X))
+    with pytest.raises(InputDataError, match="needs at least 3 concentrate grades, got 2"):
+        cal.ConcentrateModel().fit(X.iloc[:2], y[:2])
+    # fit_all fits the concentrate after Cu recovery, on the fitted Cu coefficients.
+    rec = cal.KineticRecoveryModel(calibrate=False).fit(None, None).predict(X)
+    models, _ = cal.fit_all(X, {"conc_cu_pct": y, "cu_recovery_frac": rec}, df["hole_id"],
+                            n_splits=3)
+    assert models["conc_cu_pct"].cu_params == models["cu_recovery_frac"].full_params()
+
+
 def test_model_from_json_rejects_unknown_class():
     with pytest.raises(InputDataError, match="unknown saved model class 'Pickled'"):
         cal.model_from_json({"class": "Pickled", "params": {}, "state": {}})

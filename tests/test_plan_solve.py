@@ -402,6 +402,8 @@ def test_warm_started_scenario_matches_a_cold_solve():
     warm = solve_blend(changed, SIMPLEX, warm_start=base.warm_start)
     assert warm.value_pv_usd == pytest.approx(cold.value_pv_usd, rel=1e-9)
     assert warm.simplex_iterations < cold.simplex_iterations
+    assert warm.timings["warm_started"] == 1.0
+    assert cold.timings["warm_started"] == 0.0
     # a model of another shape ignores the basis and still solves correctly
     other = solve_blend(small_case(3, 3, seed=6), SIMPLEX, warm_start=base.warm_start)
     ref, _x = solve_reference(reference_lp(small_case(3, 3, seed=6)))

@@ -350,3 +350,28 @@ def test_units_and_meanings_of_statistic_and_helper_columns():
     assert column_description("cu_recovery_frac_p10") == "10th percentile of cu_recovery_frac"
     assert column_description("au_gpt_censored").startswith("True where au_gpt was reported")
     assert column_description("hole_id") == describe("hole_id")
+
+
+def test_duplicate_and_non_text_column_names(tmp_path):
+    frame = pd.DataFrame([[1.5, 2.5, "a"], [3.5, 4.5, "b"]], columns=["cu_pct", "cu_pct", 7])
+    path = write_workbook(tmp_path / "dup.xlsx", result_with({"composites": frame}))
+    ws = openpyxl.load_workbook(path)["Composites"]
+    assert [c.value for c in ws[3]] == ["cu_pct", "cu_pct", "7"]
+    assert [c.value for c in ws[6]] == [3.5, 4.5, "b"]
+
+
+def test_tables_workbook_without_a_run(tmp_path):
+    from geomet.io.workbook import write_tables_workbook
+
+    frame = composites(5)
+    path = write_tables_workbook(
+        tmp_path / "t.xlsx",
+        {"domain_summary": frame},
+        {"domain_summary": "Domains at a glance."},
+        title="Vellantra",
+    )
+    wb = openpyxl.load_workbook(path)
+    assert wb.sheetnames == [ABOUT_SHEET, "Domain summary", GUIDE_SHEET]
+    assert wb[ABOUT_SHEET]["A1"].value == "Vellantra"
+    assert wb["Domain summary"]["A2"].value.startswith("Domains at a glance. 5 rows.")
+    assert wb["Domain summary"]["D9"].value == pytest.approx(frame["cu_pct"].iloc[4])

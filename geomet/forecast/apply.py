@@ -23,6 +23,7 @@ from geomet.forecast import flotation as flot
 from geomet.forecast import throughput as thr
 from geomet.forecast.calibration import (
     AcidReactivityModel,
+    ConcentrateModel,
     KineticRecoveryModel,
     conformal_quantile,
     make_model,
@@ -188,6 +189,7 @@ def _forecast_chunk(x: Mapping, models: Mapping, s: PlantSettings) -> dict[str, 
     # Flotation.
     cu_model = models["cu_recovery_frac"]
     params = cu_model.full_params() if isinstance(cu_model, KineticRecoveryModel) else None
+    conc_model = models.get("conc_cu_pct")
     rough = flot.rougher_copper(
         x["cu_pct"], x["cu_asol_pct"], x["clay_swelling_pct"], x["clay_kaolin_pct"],
         x["white_mica_illite_pct"], x["clay_severity_idx"],
@@ -198,7 +200,12 @@ def _forecast_chunk(x: Mapping, models: Mapping, s: PlantSettings) -> dict[str, 
     out["cu_recovery_frac"] = cu_rec
     out["cu_recovery_frac_p10"], out["cu_recovery_frac_p90"] = _interval(
         cu_model, cu_rec, cov, 0.0, 1.0)
-    out["conc_cu_pct"] = rough["conc_cu_pct"]
+    if conc_model is None:
+        out["conc_cu_pct"] = rough["conc_cu_pct"]
+    elif isinstance(conc_model, ConcentrateModel):
+        out["conc_cu_pct"] = conc_model.adjust(rough["conc_cu_pct"])
+    else:
+        out["conc_cu_pct"] = conc_model.predict(x)
     out["conc_mass_pull_frac"] = rough["mass_pull_frac"]
     au_model = models["au_recovery_frac"]
     if isinstance(au_model, KineticRecoveryModel):

@@ -64,6 +64,7 @@ RESPONSES: dict[str, tuple[str, str, tuple[float, float]]] = {
     "cu_recovery_frac": ("cu_recovery_frac", "cu", (0.0, 1.0)),
     "au_recovery_frac": ("au_recovery_frac", "au", (0.0, 1.0)),
     "acid_kg_t": ("leach_acid_kg_t", "acid", (0.0, np.inf)),
+    "conc_cu_pct": ("conc_cu_pct", "conc", (0.0, 100.0)),
 }
 
 _CLAYS = ("clay_swelling_pct", "clay_kaolin_pct", "white_mica_illite_pct", "clay_severity_idx")
@@ -78,6 +79,7 @@ MONOTONE_SIGNS: dict[str, dict[str, int]] = {
     "au_recovery_frac": {"au_gpt": 1, "clay_swelling_pct": -1, "clay_kaolin_pct": -1,
                          "oxide_ratio_frac": -1},
     "acid_kg_t": {f"{m}_pct": 1 for m in acid_mod.GANGUE_ACID_MINERALS} | {"cu_asol_pct": 1},
+    "conc_cu_pct": {"clay_kaolin_pct": -1, "clay_swelling_pct": -1},
 }  # fmt: skip
 
 
@@ -549,6 +551,84 @@ class AcidReactivityModel(_ForecastModel):
         self.intercept_ = float(state["intercept_"])
 
 
+class ConcentrateModel(_ForecastModel):
+    """Rougher concentrate Cu grade: the mechanistic estimate of
+    :func:`geomet.forecast.flotation.rougher_copper` calibrated to measured grades.
+
+    Parameters
+    ----------
+    cu_params : dict or None
+        Cu flotation coefficients (e.g. the fitted Cu recovery model's ``full_params()``);
+        None uses the defaults.
+    time_min, kinetic, n_cells :
+        As in :class:`KineticRecoveryModel`.
+    calibrate : bool
+        False keeps the mechanistic estimate unchanged (a = 0, b = 1).
+
+    Notes
+    -----
+    c = exp(a) · ĉ^b, ĉ the grade of the recovered minerals plus entrained gangue; a and b
+    (0 ≤ b ≤ 1.5) by bounded least squares on ln c (grade scatter is roughly proportional to
+    grade). b < 1 says the measured grades vary less with the ore than the mass model.
+    """
+
+    response = "conc_cu_pct"
+
+    def __init__(self, cu_params=None, time_min=10.0, kinetic="first_order", n_cells=6,
+                 calibrate=True):
+        self.cu_params = cu_params
+        self.time_min = time_min
+        self.kinetic = kinetic
+        self.n_cells = n_cells
+        self.calibrate = calibrate
+
+    def mechanistic(self, X):
+        """The uncalibrated concentrate grade ĉ [% Cu]."""
+        return flot.rougher_copper(
+            _col(X, "cu_pct"), _col(X, "cu_asol_pct"), *(_col(X, c) for c in _CLAYS),
+            cu_mineral_pct=copper_minerals(X), pyrite_pct=_col(X, "pyrite_pct"),
+            time_min=self.time_min, model=self.kinetic, n_cells=self.n_cells,
+            params=self.cu_params,
+        )["conc_cu_pct"]
+
+    def fit(self, X, y):
+        """Fit a and b to measured concentrate grades ``y`` [% Cu]."""
+        self.log_scale_, self.exponent_ = 0.0, 1.0
+        if not self.calibrate:
+            return self
+        y = np.asarray(y, dtype=float)
+        c = self.mechanistic(X)
+        ok = ~np.isnan(y) & (y > 0) & (c > 0)
+        if ok.sum() < 3:
+            msg = f"ConcentrateModel: needs at least 3 concentrate grades, got {int(ok.sum())}"
+            raise InputDataError(msg)
+        A = np.column_stack([np.ones(int(ok.sum())), np.log(c[ok])])
+        sol = lsq_linear(A, np.log(y[ok]), bounds=([-np.inf, 0.0], [np.inf, 1.5]))
+        self.log_scale_, self.exponent_ = float(sol.x[0]), float(sol.x[1])
+        return self
+
+    def adjust(self, mechanistic_pct):
+        """Calibrated grade from mechanistic grades [% Cu]."""
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return self._clip(np.exp(self.log_scale_) * np.asarray(mechanistic_pct, float)
+                              ** self.exponent_)
+
+    def predict(self, X):
+        """Concentrate grade [% Cu] for rows ``X``."""
+        return self.adjust(self.mechanistic(X))
+
+    def predict_default(self, X):
+        """The mechanistic concentrate grade."""
+        return self._clip(self.mechanistic(X))
+
+    def _state(self):
+        return {"log_scale_": self.log_scale_, "exponent_": self.exponent_}
+
+    def _load_state(self, state):
+        self.log_scale_ = float(state["log_scale_"])
+        self.exponent_ = float(state["exponent_"])
+
+
 def default_model(response: str, **kwargs) -> _ForecastModel:
     """The parametric model of ``response`` (keys of :data:`RESPONSES`)."""
     if response not in RESPONSES:
@@ -559,6 +639,8 @@ def default_model(response: str, **kwargs) -> _ForecastModel:
         return LinearResponseModel(response=response, **kwargs)
     if kind in ("cu", "au"):
         return KineticRecoveryModel(metal=kind, **kwargs)
+    if kind == "conc":
+        return ConcentrateModel(**kwargs)
     return AcidReactivityModel(**kwargs)
 
 
@@ -572,6 +654,9 @@ def model_features(response: str) -> list[str]:
                 "pyrite_pct"]
     if kind == "au":
         return ["au_gpt", *_CLAYS, "oxide_ratio_frac"]
+    if kind == "conc":
+        return ["cu_pct", "cu_asol_pct", *_CLAYS, *(f"{m}_pct" for m in COPPER_MINERALS),
+                "pyrite_pct"]
     return [*(f"{m}_pct" for m in acid_mod.GANGUE_ACID_MINERALS), "cu_asol_pct"]
 
 
@@ -784,7 +869,7 @@ def _cross_conformal_coverage(resid, folds, coverage) -> float:
 MODEL_CLASSES = {
     cls.__name__: cls
     for cls in (LinearResponseModel, KineticRecoveryModel, AcidReactivityModel,
-                MonotoneBoostingModel)
+                ConcentrateModel, MonotoneBoostingModel)
 }
 
 
@@ -846,9 +931,18 @@ def fit_all(
     """
     models: dict[str, _ForecastModel] = {}
     rows = []
-    for response, y in targets.items():
+    # Copper recovery first: the concentrate model builds on it.
+    order = sorted(targets, key=lambda r: r == "conc_cu_pct")
+    for response in order:
+        y = targets[response]
         y = np.asarray(y, dtype=float)
         kwargs = dict((model_kwargs or {}).get(response, {}))
+        cu_model = models.get("cu_recovery_frac")
+        if response == "conc_cu_pct" and isinstance(cu_model, KineticRecoveryModel):
+            # The concentrate mass is fitted with the copper recoveries already calibrated.
+            kwargs.setdefault("cu_params", cu_model.full_params())
+            for key in ("time_min", "kinetic", "n_cells"):
+                kwargs.setdefault(key, cu_model.get_params()[key])
         model = make_model(response, method, seed=seed, **kwargs)
         n = int((~np.isnan(y)).sum())
         if n == 0:

@@ -28,6 +28,7 @@ import re
 import zipfile
 from collections.abc import Iterable, Mapping
 from pathlib import Path
+from types import SimpleNamespace
 from typing import Any
 from xml.etree import ElementTree
 from xml.sax.saxutils import escape as xml_escape
@@ -359,6 +360,39 @@ def write_workbook(path: str | Path, result, *, title: str | None = None) -> Pat
     return path
 
 
+def write_tables_workbook(
+    path: str | Path,
+    tables: Mapping[str, pd.DataFrame],
+    descriptions: Mapping[str, str] | None = None,
+    *,
+    title: str = "geomet tables",
+) -> Path:
+    """Write ``tables`` as a workbook in the same layout as a run's, without a run.
+
+    For notebook users: each table gets its sheet (title, description, headers, units row,
+    formats), with the About sheet (cautions included) and the column guide.
+
+    Examples
+    --------
+    >>> import pandas as pd, tempfile, pathlib
+    >>> folder = pathlib.Path(tempfile.mkdtemp())
+    >>> frame = pd.DataFrame({"hole_id": ["VL-001"], "cu_pct": [0.42]})
+    >>> write_tables_workbook(folder / "t.xlsx", {"composites": frame}).name
+    't.xlsx'
+    """
+    descriptions = dict(descriptions or {})
+    result = SimpleNamespace(
+        tables=dict(tables),
+        produced={name: descriptions.get(name, "") for name in tables},
+        plots=[],
+        notes=[],
+        steps=[],
+        warnings=[],
+        provenance={},
+    )
+    return write_workbook(path, result, title=title)
+
+
 def _link(sheet: str) -> Hyperlink:
     """An internal link to cell A1 of ``sheet``."""
     return Hyperlink(ref="A1", location="'{}'!A1".format(sheet.replace("'", "''")))
@@ -515,9 +549,9 @@ def _flatten(tree: Mapping, prefix: str = "") -> list[tuple[str, str]]:
 def _column_widths(frame: pd.DataFrame, sample_rows: int = 300) -> list[float]:
     head = frame.head(sample_rows)
     widths = []
-    for col in frame.columns:
+    for j, col in enumerate(frame.columns):
         longest = max(len(str(col)), len(column_unit(str(col))) + 2)
-        series = head[col]
+        series = head.iloc[:, j]
         if pd.api.types.is_float_dtype(series.dtype):
             longest = max(longest, 9)
         else:
@@ -550,8 +584,8 @@ def _table_sheet(
     for i, col in enumerate(columns, 1):
         if (
             is_risk_column(col)
-            and pd.api.types.is_numeric_dtype(frame[col].dtype)
-            and not pd.api.types.is_bool_dtype(frame[col].dtype)
+            and pd.api.types.is_numeric_dtype(frame.dtypes.iloc[i - 1])
+            and not pd.api.types.is_bool_dtype(frame.dtypes.iloc[i - 1])
             and len(body)
         ):
             letter = get_column_letter(i)
@@ -605,8 +639,8 @@ def _table_sheet(
     # openpyxl writes one empty styled cell per column in the first data row: that gives every
     # column its style id. _stream_rows then writes all the data rows in its place.
     formats = []
-    for col in frame.columns:
-        series = body[col]
+    for j, col in enumerate(frame.columns):
+        series = body.iloc[:, j]
         fmt = number_format(str(col), series.dtype)
         if (
             pd.api.types.is_datetime64_any_dtype(series.dtype)

@@ -123,6 +123,7 @@ def _solve_blend(data: BlendData, options: SolveOptions, diagnose: bool, warm_st
         timings["handover_s"] = cm.compile_s + out.handover_s
         timings["solve_s"] = out.solve_s
         timings["ranging_s"] = out.ranging_s
+        timings["warm_started"] = float(out.warm_started)
     if out is None or out.status == "infeasible":
         start = time.perf_counter()
         diagnosis = diagnose_infeasibility(data, options) if diagnose else _empty(DIAGNOSIS_COLUMNS)

@@ -4,6 +4,11 @@ One-shot solves compile the Pyomo model with Pyomo's ``LinearStandardFormCompile
 matrices and pass them to ``highspy.Highs.passModel`` (much cheaper than walking every constraint
 through a solver interface). Integrality is always passed as an explicit int32 array (zeros for an
 LP): an empty array is not a safe way to say "no integers" in highspy's array interface.
+
+Scenario re-solves that change limit values only keep the rows and columns: they can start dual
+simplex from the earlier basis (:class:`WarmStart`) instead of solving from scratch. Blend limits
+sit in matrix coefficients (sum of t (a - L)), so a persistent solver interface would have to
+update coefficients row by row; re-compiling and passing a basis is simpler.
 """
 
 from __future__ import annotations
@@ -100,6 +105,7 @@ class HighsOutcome:
     ranging_s: float = 0.0
     simplex_iterations: int = 0
     warm_start: WarmStart | None = None  # basis of this solve, to start related solves from
+    warm_started: bool = False  # this solve started from a given basis
 
 
 @dataclass(frozen=True)
@@ -294,6 +300,7 @@ def solve_compiled(
         ranging_s,
         int(info.simplex_iteration_count),
         start_next,
+        warm,
     )
 
 

@@ -466,7 +466,8 @@ def solve_pmedian_milp(
         highs.setOptionValue("output_flag", False)
         highs.setOptionValue("time_limit", float(time_limit_s))
         highs.setOptionValue("mip_rel_gap", float(rel_gap))
-        highs.setOptionValue("threads", 1)
+        # No "threads" option: HiGHS sizes one scheduler per process at its first run, and a
+        # later different thread count makes run() fail with status "Not Set".
         highs.passModel(lp)
         if start is not None and len(start) == p_eff and is_feasible(problem, start):
             highs.setSolution(_start_solution(problem, model, col_of, ncol, np.asarray(start)))

