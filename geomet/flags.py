@@ -250,15 +250,19 @@ def lookahead_table(
         dom_codes, dom_names = np.zeros(len(sel), dtype=np.int64), np.array([""])
     n_d = len(dom_names)
     rows = []
+    cell_base = (pidx * n_d + dom_codes) * 3  # (period, domain, level code) cells
     for rule in have:
         codes = flag_level_codes(blocks[rule.column].to_numpy(dtype=float)[sel], rule)
+        # One pass per rule: tonnes and counts by period, domain and level code (0, 1, 2).
+        cell = cell_base + codes
+        size = n_p * n_d * 3
+        t_cell = np.bincount(cell, weights=tonnes, minlength=size).reshape(n_p, n_d, 3)
+        n_cell = np.bincount(cell, minlength=size).reshape(n_p, n_d, 3)
         for level_no, level in enumerate(LEVELS, start=1):
-            hit = codes >= level_no
-            flagged_t = np.bincount(pidx[hit], weights=tonnes[hit], minlength=n_p)
-            n_blocks = np.bincount(pidx[hit], minlength=n_p)
-            cell = pidx[hit] * n_d + dom_codes[hit]
-            dom_t = np.bincount(cell, weights=tonnes[hit], minlength=n_p * n_d).reshape(n_p, n_d)
-            dom_n = np.bincount(cell, minlength=n_p * n_d).reshape(n_p, n_d)
+            dom_t = t_cell[:, :, level_no:].sum(axis=2)  # at or beyond this level
+            dom_n = n_cell[:, :, level_no:].sum(axis=2)
+            flagged_t = dom_t.sum(axis=1)
+            n_blocks = dom_n.sum(axis=1)
             threshold = rule.watch if level == "watch" else rule.alert
             for i, p in enumerate(periods):
                 listed = ""

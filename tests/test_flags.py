@@ -141,6 +141,15 @@ def test_flags_step_option_errors(blocks):
         step.func(ctx, step.options(thresholds={"clay_total": {"watch": 40.0}}))
 
 
+def test_flagged_tonnes_figure_handles_empty_and_full(blocks):
+    from geomet.io.plots.forecast import flagged_tonnes_figure
+
+    empty = flagged_tonnes_figure(lookahead_table(blocks.iloc[0:0], [CLAY]))
+    full = flagged_tonnes_figure(lookahead_table(blocks, [CLAY, LOW_REC]), current_period=2)
+    assert len(full.axes[0].patches) == 2 * 2 * 3  # flags × levels × periods
+    assert empty.axes[0].texts[0].get_text() == "No scheduled blocks to flag"
+
+
 def test_default_rules_are_valid_and_unique():
     names = [r.flag for r in DEFAULT_FLAG_RULES]
     assert len(names) == len(set(names))

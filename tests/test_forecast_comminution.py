@@ -91,6 +91,14 @@ def test_morrell_stage_energy_hand_arithmetic():
         0.95 * expected)
 
 
+def test_morrell_types():
+    s = pd.Series([15.0, 20.0], index=["x", "y"])
+    out = comm.morrell_specific_energy(s, s, 100_000.0, 150.0)
+    assert list(out.index) == ["x", "y"]
+    np.testing.assert_allclose(comm.morrell_specific_energy(s.to_numpy(), s.to_numpy(),
+                                                            100_000.0, 150.0), out.to_numpy())
+
+
 def test_morrell_total_is_sum_of_stages():
     total = comm.morrell_specific_energy(20.0, 18.0, 100_000.0, 150.0)
     coarse = comm.morrell_stage_energy(20.0, 100_000.0, 750.0)

@@ -79,6 +79,17 @@ def test_forecast_step_without_blocks_uses_composites(tables):
     assert any("no blocks_domained" in n for n in ctx.notes)
 
 
+def test_forecast_step_with_unmatched_testwork_uses_defaults(tables):
+    step = STEPS["forecast"]
+    testwork = tables["testwork"].assign(hole_id="ELSEWHERE-1")
+    ctx = StepContext(tables={"domained": tables["domained"], "testwork": testwork})
+    out = step.func(ctx, step.options())
+    assert out["calibration_report"].empty
+    assert out["composite_forecasts"]["cu_recovery_frac"].notna().all()
+    assert any("outside the composites" in n for n in ctx.notes)
+    assert ctx.extras["json_files"]["forecast_models"]["models"] == {}
+
+
 def test_forecast_step_options_validated():
     from pydantic import ValidationError
 

@@ -45,6 +45,15 @@ def test_clay_penalty_zero_without_clay_and_half_at_midpoint():
         float(thr.clay_penalty_frac(12.0, 0.0)))
 
 
+def test_clay_penalty_types():
+    s = pd.Series([0.0, 30.0], index=["b1", "b2"])
+    out = thr.clay_penalty_frac(s, pd.Series([0.0, 2.0], index=s.index))
+    assert list(out.index) == ["b1", "b2"]
+    arr = thr.clay_penalty_frac(np.array([0.0, 30.0]), np.array([0.0, 2.0]))
+    np.testing.assert_allclose(arr, out.to_numpy())
+    assert isinstance(thr.clay_penalty_frac(30.0, 2.0), float)
+
+
 def test_clay_penalty_errors():
     with pytest.raises(InputDataError, match=r"max_loss_frac must be in \[0, 1\)"):
         thr.clay_penalty_frac(1.0, 1.0, max_loss_frac=1.0)

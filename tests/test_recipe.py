@@ -360,3 +360,25 @@ def test_models_inside_tables_and_lists_are_explained_and_checked(tmp_path):
     assert "watch_test.thresholds.clay.alret: unknown key; did you mean 'alert'?" in message
     assert "watch_test.scenarios.0.nmae: unknown key; did you mean 'name'?" in message
     assert "watch_test.scenarios.0.name: required, but not given" in message
+
+
+def test_inputs_shape_errors(tmp_path):
+    with pytest.raises(RecipeError) as info:
+        parse('inputs = "blocks.csv"\n[run]\nsteps = ["plan_test"]\n', tmp_path)
+    assert "inputs: expected sections [inputs.<table>]; got 'blocks.csv'" in str(info.value)
+    with pytest.raises(RecipeError) as info:
+        parse('[run]\nsteps = ["plan_test"]\n[inputs]\nblocks = "b.csv"\nzzz = 1\n', tmp_path)
+    message = str(info.value)
+    assert (
+        "inputs.blocks: expected a section [inputs.blocks] with path = ...; got 'b.csv'" in message
+    )
+    assert "inputs.zzz: unknown input table (known tables: assays, blocks, collars" in message
+
+
+def test_unknown_key_without_close_match_lists_valid_keys(tmp_path):
+    with pytest.raises(
+        RecipeError,
+        match=r"plan_test\.xyz: unknown key \(valid keys: solver, "
+        r"periods, mill\)",
+    ):
+        parse('[run]\nsteps = ["plan_test"]\n[plan_test]\nxyz = 1\n', tmp_path)

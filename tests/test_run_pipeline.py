@@ -472,3 +472,57 @@ def test_progress_flag_reaches_the_steps(steps):
     run_steps({}, ["look_test"], show_progress=True)
     run_steps({}, ["look_test"])
     assert seen == [True, [0, 1, 2], False, [0, 1, 2]]
+
+
+def test_missing_table_when_the_producer_is_listed_after():
+    registry = {
+        "a": make_step("a", produces={"t_a": ""}),
+        "b": make_step("b", needs=["t_a"]),
+    }
+    with pytest.raises(
+        StepInputMissing,
+        match=r"step 'b' needs table 't_a'; step 'a' produces it "
+        r"but runs later",
+    ):
+        check_step_inputs([registry["b"], registry["a"]], [], registry)
+
+
+def test_writers_refuse_unknown_formats(tmp_path):
+    from geomet.io.writers import write_table, write_tables
+
+    frame = pd.DataFrame({"a": [1]})
+    with pytest.raises(
+        GeometError,
+        match=r"cannot write a table to 't\.xlsx': the file name must "
+        r"end in \.csv or \.parquet",
+    ):
+        write_table(frame, tmp_path / "t.xlsx")
+    with pytest.raises(
+        GeometError,
+        match=r"table_format must be one of csv, parquet, both; got "
+        r"'feather'",
+    ):
+        write_tables({"t": frame}, tmp_path, "feather")
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_parquet_copies_hold_mixed_text_columns(tmp_path):
+    from geomet.io.writers import write_table
+
+    frame = pd.DataFrame({"value": ["12.5", 3, None], "n": [1, 2, 3]}, dtype=object)
+    write_table(frame, tmp_path / "mixed.parquet")
+    back = pd.read_parquet(tmp_path / "mixed.parquet")
+    assert back["value"].tolist()[:2] == ["12.5", "3"]
+    assert pd.isna(back["value"].iloc[2])
+
+
+def test_result_repr_is_short(steps):
+    steps(
+        make_step(
+            "one_test",
+            lambda ctx, o: {"t_one": pd.DataFrame({"a": range(5000)})},
+            produces={"t_one": "One."},
+        )
+    )
+    text = repr(run_steps({}, ["one_test"]))
+    assert text == "RunResult(steps=[one_test], outputs=[t_one (5,000 rows)], plots=0, warnings=0)"

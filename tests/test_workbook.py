@@ -375,3 +375,30 @@ def test_tables_workbook_without_a_run(tmp_path):
     assert wb[ABOUT_SHEET]["A1"].value == "Vellantra"
     assert wb["Domain summary"]["A2"].value.startswith("Domains at a glance. 5 rows.")
     assert wb["Domain summary"]["D9"].value == pytest.approx(frame["cu_pct"].iloc[4])
+
+
+def test_sheet_xml_is_well_formed_and_ordered(tmp_path):
+    """Every part parses as XML (lxml, strict) and rows/cells ascend as ECMA-376 18.3.1 requires."""
+    import re
+    import zipfile
+
+    from lxml import etree
+    from openpyxl.utils import column_index_from_string
+
+    frame = composites(40)
+    frame.loc[5, ["cu_pct", "au_gpt"]] = np.nan  # gaps inside a row
+    path = write_workbook(tmp_path / "x.xlsx", result_with({"composites": frame}))
+    main = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
+    with zipfile.ZipFile(path) as archive:
+        for name in archive.namelist():
+            if name.endswith((".xml", ".rels")):
+                root = etree.fromstring(archive.read(name))  # raises on malformed XML
+                if not name.startswith("xl/worksheets/sheet"):
+                    continue
+                rows = [int(r.get("r")) for r in root.iter(f"{main}row")]
+                assert rows == sorted(set(rows))
+                for row in root.iter(f"{main}row"):
+                    refs = [c.get("r") for c in row.iter(f"{main}c")]
+                    cols = [column_index_from_string(re.match(r"[A-Z]+", r).group()) for r in refs]
+                    assert cols == sorted(set(cols))
+                    assert all(r.endswith(row.get("r")) for r in refs)

@@ -31,6 +31,7 @@ from geomet.forecast.apply import (
 )
 from geomet.forecast.calibration import (
     AcidReactivityModel,
+    ConcentrateModel,
     KineticRecoveryModel,
     LinearResponseModel,
     MonotoneBoostingModel,
@@ -71,7 +72,8 @@ from geomet.forecast.throughput import (
 )
 
 __all__ = [
-    "ACID_REACTIONS", "FORECAST_COLUMNS", "AcidReactivityModel", "KineticRecoveryModel",
+    "ACID_REACTIONS", "FORECAST_COLUMNS", "AcidReactivityModel", "ConcentrateModel",
+    "KineticRecoveryModel",
     "LinearResponseModel", "MonotoneBoostingModel", "PlantSettings", "acid_factor_kg_per_kg",
     "acid_per_kg_cu", "add_forecasts", "au_recovery_frac", "bond_ball_mill_energy",
     "bond_specific_energy", "calibrate_response", "clay_limited_throughput", "clay_penalty_frac",

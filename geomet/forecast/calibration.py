@@ -12,6 +12,8 @@ column -> array for prediction) with the canonical input columns of
   (``scipy.optimize.least_squares``) with a weak prior at the defaults.
 - :class:`AcidReactivityModel` — leach acid as stoichiometric mineral acid times reactivity
   factors in [0, 1], fitted by bounded linear least squares (``scipy.optimize.lsq_linear``).
+- :class:`ConcentrateModel` — the mechanistic rougher concentrate grade, calibrated as
+  c = exp(a) ĉ^b on measured grades (fitted after the Cu recovery model, on its coefficients).
 - :class:`MonotoneBoostingModel` — gradient boosting of the residual from the default physics
   model, with monotone constraints where physics fixes the sign
   (``HistGradientBoostingRegressor(monotonic_cst=...)``).

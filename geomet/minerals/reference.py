@@ -43,8 +43,8 @@ References
    1019-1037.
 .. [2] Armbruster, T. et al. (2006). Recommended nomenclature of epidote-group minerals.
    *European Journal of Mineralogy* 18(5), 551-567.
-.. [3] Rosenberg, P. E. (2002). The nature, formation, and stability of end-member illite.
-   *Geochimica et Cosmochimica Acta* 66(13), 2319-2331.
+.. [3] Rosenberg, P. E. (2002). The nature, formation, and stability of end-member illite: a
+   hypothesis. *American Mineralogist* 87(1), 103-107 (journal details from memory).
 .. [4] Sillitoe, R. H. (2010). Porphyry copper systems. *Economic Geology* 105(1), 3-41.
    https://doi.org/10.2113/gsecongeo.105.1.3
 """

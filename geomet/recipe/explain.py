@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import enum
 import json
+import math
+import re
 import textwrap
 import types
 import typing
@@ -30,6 +32,7 @@ class OptionDoc:
     allowed: tuple[str, ...]
     limits: str
     description: str
+    literal: str | None = None  # the default as a TOML value (None: required, or no default)
 
 
 @dataclass(frozen=True)
@@ -158,7 +161,12 @@ def model_options(model_cls: type[BaseModel], prefix: str) -> list[OptionDoc]:
         if nested is not None:
             out.extend(model_options(nested, key))
             continue
-        default = _default(info)
+        literal = _default_literal(info)
+        if literal is None:
+            required = info.default is PydanticUndefined and info.default_factory is None
+            default = "required" if required else "none (omit the key)"
+        else:
+            default = literal
         out.append(
             OptionDoc(
                 key=key,
@@ -167,6 +175,7 @@ def model_options(model_cls: type[BaseModel], prefix: str) -> list[OptionDoc]:
                 allowed=allowed_values(annotation),
                 limits=_limits(info.metadata, annotation),
                 description=" ".join((info.description or "").split()),
+                literal=literal,
             )
         )
         contained = _contained_model(annotation)
@@ -199,11 +208,24 @@ def _contained_model(annotation) -> tuple[str, type[BaseModel]] | None:
     return None
 
 
-def _default(info) -> str:
+def _default_literal(info) -> str | None:
+    """The field's default written as TOML, or None when it is required or defaults to None."""
     if info.default is PydanticUndefined and info.default_factory is None:
-        return "required"
+        return None
     value = info.default_factory() if info.default_factory is not None else info.default
+    if value is None or _holds_none(value):
+        return None
     return toml_value(value)
+
+
+def _holds_none(value: Any) -> bool:
+    if isinstance(value, BaseModel):
+        value = value.model_dump(mode="json")
+    if isinstance(value, dict):
+        return any(v is None or _holds_none(v) for v in value.values())
+    if isinstance(value, (list, tuple)):
+        return any(v is None or _holds_none(v) for v in value)
+    return False
 
 
 def toml_value(value: Any) -> str:
@@ -226,12 +248,75 @@ def toml_value(value: Any) -> str:
         return (
             "{ " + ", ".join(f"{_toml_key(k)} = {toml_value(v)}" for k, v in value.items()) + " }"
         )
-    return str(value)
+    if isinstance(value, (int, float)):
+        return (
+            repr(value) if isinstance(value, int) or math.isfinite(value) else _toml_special(value)
+        )
+    return json.dumps(str(value), ensure_ascii=False)
+
+
+def _toml_special(value: float) -> str:
+    if math.isnan(value):
+        return "nan"
+    return "inf" if value > 0 else "-inf"
+
+
+_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")  # TOML 1.0 bare keys: ASCII letters, digits, _ and -
 
 
 def _toml_key(key: Any) -> str:
     key = str(key)
-    return key if key.replace("_", "").replace("-", "").isalnum() else json.dumps(key)
+    return key if _BARE_KEY.match(key) else json.dumps(key, ensure_ascii=False)
+
+
+def template(*, registry: Mapping | None = None, width: int = 96) -> str:
+    """A complete starter recipe: every section and option with its default, as TOML comments.
+
+    ``[run]`` is filled in (all registered steps, in run order); every other option is a comment
+    ``# key = default`` that can be un-commented as it is. Options without a default are listed
+    as ``#- key`` lines.
+    """
+    steps = _run_order(_registry(registry))
+    docs = section_docs(registry=steps)
+    out = [
+        "# geomet recipe. Remove the leading '# ' of an option to set it; every option is shown",
+        "# with its default. Paths are relative to this file. `geomet recipe --explain SECTION`",
+        "# describes each option; `geomet steps` lists the steps.",
+        "",
+        "[run]",
+    ]
+    run_values = RunSection(steps=list(steps) or ["check"]).model_dump()
+    for key, value in run_values.items():
+        out.append(f"{key} = {toml_value(value)}")
+    from geomet.glossary import INPUT_TABLES
+
+    out.append("")
+    for table, meaning in INPUT_TABLES.items():
+        out.append(f"# {meaning}")
+        out.append(f"# [inputs.{table}]")
+        out.append(f'# path = "{table}.csv"')
+        out.append("")
+    for doc in docs:
+        if doc.name in ("run", "inputs"):
+            continue
+        out += textwrap.wrap(doc.summary, width, initial_indent="# ", subsequent_indent="# ")
+        out.append(f"[{doc.name}]")
+        for opt in doc.options:
+            key = opt.key.removeprefix(doc.name + ".")
+            if "<name>" in key or "[]" in key:
+                continue
+            out += textwrap.wrap(
+                opt.description or "(no description)",
+                width - 3,
+                initial_indent="#   ",
+                subsequent_indent="#   ",
+            )
+            if opt.literal is not None:
+                out.append(f"# {key} = {opt.literal}")
+            else:
+                out.append(f"#- {key} ({opt.type}; {opt.default})")
+        out.append("")
+    return "\n".join(out).rstrip() + "\n"
 
 
 def allowed_values(annotation) -> tuple[str, ...]:

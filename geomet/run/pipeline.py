@@ -65,7 +65,7 @@ class StepRecord:
     notes: list[str]
 
 
-@dataclass
+@dataclass(repr=False)
 class RunResult:
     """Everything a run produced.
 
@@ -105,6 +105,15 @@ class RunResult:
 
     def __getitem__(self, name: str) -> pd.DataFrame:
         return self.tables[name]
+
+    def __repr__(self) -> str:
+        shown = [f"{name} ({len(frame):,} rows)" for name, frame in self.outputs.items()]
+        where = f", out_dir={str(self.out_dir)!r}" if self.out_dir else ""
+        return (
+            f"RunResult(steps=[{', '.join(r.name for r in self.steps)}], "
+            f"outputs=[{', '.join(shown)}], plots={len(self.plots)}, "
+            f"warnings={len(self.warnings)}{where})"
+        )
 
 
 # --- ordering ------------------------------------------------------------------------------------
@@ -286,47 +295,74 @@ def _execute(
         extras=extras,
     )
     result = RunResult(tables=tables, plots=ctx.plots, notes=ctx.notes, extras=extras)
-    for number, step in enumerate(ordered, 1):
-        missing = [t for t in step.needs if t not in tables]
-        if missing:
-            message = (
-                f"step {step.name!r} needs table {missing[0]!r}, which an earlier step "
-                f"declared but did not return"
-            )
-            raise StepInputMissing(message)
-        ctx.tables = MappingProxyType(dict(tables))
-        first_note = len(ctx.notes)
-        log.info("step %d/%d %s: started", number, len(ordered), step.name)
-        started = time.perf_counter()
-        with warnings.catch_warnings(record=True) as caught:
-            warnings.simplefilter("default")
-            try:
-                returned = step.func(ctx, options[step.name])
-            except GeometError:
-                raise
-            except Exception as exc:
-                exc.add_note(f"(raised in run step {step.name!r})")
-                raise
-        seconds = time.perf_counter() - started
-        for item in caught:
-            text = f"step {step.name}: {item.category.__name__}: {item.message}"
-            result.warnings.append(text)
-            log.warning(text)
-        produced, replaced = _take_tables(step, returned, tables, log)
-        for name in produced:
-            result.produced[name] = step.produces[name]
-        record = StepRecord(
-            step.name, step.summary, seconds, produced, replaced, list(ctx.notes[first_note:])
-        )
-        result.steps.append(record)
-        shapes = ", ".join(f"{n} ({len(tables[n])} rows)" for n in [*produced, *replaced])
-        log.info(
-            "step %s: finished in %.2f s%s",
-            step.name,
-            seconds,
-            f"; tables: {shapes}" if shapes else "",
-        )
+    with contextlib.ExitStack() as stack:
+        bar = _step_bar(stack, len(ordered)) if show_progress else None
+        for number, step in enumerate(ordered, 1):
+            if bar is not None:
+                bar.set_postfix_str(step.name)
+            log.info("step %d/%d %s: started", number, len(ordered), step.name)
+            _run_step(step, options[step.name], ctx, tables, result)
+            if bar is not None:
+                bar.update(1)
     return result
+
+
+def _run_step(
+    step: Step,
+    options: BaseModel,
+    ctx: StepContext,
+    tables: dict[str, pd.DataFrame],
+    result: RunResult,
+) -> None:
+    """Run one step on the current ``tables``; take its tables, notes and warnings."""
+    log = ctx.log
+    missing = [t for t in step.needs if t not in tables]
+    if missing:
+        message = (
+            f"step {step.name!r} needs table {missing[0]!r}, which an earlier step "
+            f"declared but did not return"
+        )
+        raise StepInputMissing(message)
+    ctx.tables = MappingProxyType(dict(tables))
+    first_note = len(ctx.notes)
+    started = time.perf_counter()
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("default")
+        try:
+            returned = step.func(ctx, options)
+        except GeometError:
+            raise
+        except Exception as exc:
+            exc.add_note(f"(raised in run step {step.name!r})")
+            raise
+    seconds = time.perf_counter() - started
+    for item in caught:
+        text = f"step {step.name}: {item.category.__name__}: {item.message}"
+        result.warnings.append(text)
+        log.warning(text)
+    produced, replaced = _take_tables(step, returned, tables, log)
+    for name in produced:
+        result.produced[name] = step.produces[name]
+    notes = list(ctx.notes[first_note:])
+    result.steps.append(StepRecord(step.name, step.summary, seconds, produced, replaced, notes))
+    shapes = ", ".join(f"{n} ({len(tables[n])} rows)" for n in [*produced, *replaced])
+    log.info(
+        "step %s: finished in %.2f s%s",
+        step.name,
+        seconds,
+        f"; tables: {shapes}" if shapes else "",
+    )
+
+
+def _step_bar(stack: contextlib.ExitStack, total: int):
+    """A progress bar over the steps on stderr; log lines are printed above it meanwhile."""
+    from tqdm.auto import tqdm
+    from tqdm.contrib.logging import logging_redirect_tqdm
+
+    stack.enter_context(logging_redirect_tqdm(loggers=[logging.getLogger(PACKAGE_LOGGER)]))
+    return stack.enter_context(
+        tqdm(total=total, desc="geomet run", unit="step", leave=False, file=sys.stderr)
+    )
 
 
 def _take_tables(
@@ -525,9 +561,9 @@ def run_recipe(
 
     with staged_directory(out_dir) as stage, _run_log(stage / "run.log") as log:
         log.info(
-            "geomet %s: recipe %s, %d steps: %s",
-            geomet.__version__,
+            "run of recipe %s with geomet %s, %d steps: %s",
             recipe.path.name if recipe.path else "",
+            geomet.__version__,
             len(ordered),
             ", ".join(s.name for s in ordered),
         )
