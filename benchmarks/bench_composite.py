@@ -5,7 +5,7 @@ data (seeded) and compares them with a straightforward per-hole Python loop meas
 run. The loop is timed on a subset of holes and scaled linearly to all holes (its cost is linear
 in the number of holes; the scaling is printed). geomet timings are the best of ``--repeat`` runs.
 
-    /work/venv/bin/python benchmarks/bench_composite.py [--quick] [--seed N]
+    python benchmarks/bench_composite.py [--quick] [--seed N]
 """
 
 from __future__ import annotations

@@ -1,6 +1,6 @@
 """Benchmark the demo generator: scan intervals per second, vectorised vs a per-hole loop.
 
-Run ``/work/venv/bin/python benchmarks/bench_demo.py`` (about a million 1 m scan intervals from
+Run ``python benchmarks/bench_demo.py`` (about a million 1 m scan intervals from
 3 000 holes) or with ``--quick`` (300 holes). The baseline evaluates the geology hole by hole
 (one ``sample_geology`` call per hole, the straightforward loop), timed on a subset of holes
 and scaled linearly to all holes; the ratio is measured in the same run.

@@ -5,7 +5,7 @@ any depth) on synthetic Vellantra holes (seeded), against a straightforward per-
 per-station Python loop (scalar ``math``) measured in the same run on a subset of holes and
 scaled linearly.
 
-    /work/venv/bin/python benchmarks/bench_desurvey.py [--quick] [--seed N]
+    python benchmarks/bench_desurvey.py [--quick] [--seed N]
 """
 
 from __future__ import annotations

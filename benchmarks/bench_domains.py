@@ -8,7 +8,7 @@ smoothing to 10 m. Baselines measured in the same run:
 - k-means fitted on every row for the chosen k (what subsampling avoids), with the adjusted
   Rand index between the two labellings to show what the subsample costs in agreement.
 
-Run: ``/work/venv/bin/python benchmarks/bench_domains.py [--quick] [--rows N]``.
+Run: ``python benchmarks/bench_domains.py [--quick] [--rows N]``.
 """
 
 from __future__ import annotations

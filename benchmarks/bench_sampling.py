@@ -10,7 +10,7 @@ Full size: about 200 000 candidate intervals and 1 000 000 blocks; ``--quick``: 
   heuristic against the exact MILP (objective and time); the heuristic on the shortlist of
   nearest candidates against the heuristic on all of a domain's candidates.
 
-Run: ``/work/venv/bin/python benchmarks/bench_sampling.py [--quick] [--seed N]``.
+Run: ``python benchmarks/bench_sampling.py [--quick] [--seed N]``.
 """
 
 from __future__ import annotations

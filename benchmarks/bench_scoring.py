@@ -1,6 +1,6 @@
 """Benchmark: scoring blocks through every forecast and flag, against one numpy pass.
 
-Run ``/work/venv/bin/python benchmarks/bench_scoring.py`` (10 million blocks) or with ``--quick``
+Run ``python benchmarks/bench_scoring.py`` (10 million blocks) or with ``--quick``
 (1 million). Times are process CPU seconds, best of the repeats. The baseline, measured in the
 same run, is a single vectorised numpy pass over the
 same input columns (a weighted sum of every column the forecasts read); the report gives each
@@ -25,8 +25,11 @@ from geomet.forecast.synthetic import synthetic_mineralogy
 def make_blocks(n: int, seed: int) -> dict[str, np.ndarray]:
     """``n`` synthetic blocks as column arrays (tiles a 100 000-row synthetic table)."""
     base = synthetic_mineralogy(100_000, seed=seed)
-    numeric = {c: base[c].to_numpy(dtype=float) for c in base.columns
-               if pd.api.types.is_numeric_dtype(base[c])}
+    numeric = {
+        c: base[c].to_numpy(dtype=float)
+        for c in base.columns
+        if pd.api.types.is_numeric_dtype(base[c])
+    }
     reps = -(-n // len(base))
     rng = np.random.default_rng(seed)
     out = {}
@@ -46,9 +49,14 @@ def fitted_models(seed: int):
     targets = {
         name: cal.make_model(name, "none").fit(None, None).predict(X) * 1.05
         + rng.normal(0, scale, len(X))
-        for name, scale in (("bond_bwi_kwh_t", 0.5), ("smc_axb", 3.0), ("smc_mia_kwh_t", 1.0),
-                            ("cu_recovery_frac", 0.02), ("au_recovery_frac", 0.03),
-                            ("acid_kg_t", 1.5))
+        for name, scale in (
+            ("bond_bwi_kwh_t", 0.5),
+            ("smc_axb", 3.0),
+            ("smc_mia_kwh_t", 1.0),
+            ("cu_recovery_frac", 0.02),
+            ("au_recovery_frac", 0.03),
+            ("acid_kg_t", 1.5),
+        )
     }
     models, _ = cal.fit_all(X, targets, df["hole_id"], n_splits=3)
     return models
@@ -103,27 +111,40 @@ def main() -> None:
     t_fc, cols = timed(lambda: forecast_columns(blocks, models), repeat)
 
     def flag_codes():
-        return [flag_level_codes(cols.get(r.column, blocks.get(r.column)), r)
-                for r in DEFAULT_FLAG_RULES if r.column in cols or r.column in blocks]
+        return [
+            flag_level_codes(cols.get(r.column, blocks.get(r.column)), r)
+            for r in DEFAULT_FLAG_RULES
+            if r.column in cols or r.column in blocks
+        ]
 
     t_codes, _ = timed(flag_codes, repeat)
-    frame = pd.DataFrame({
-        "block_id": blocks["block_id"], "period": blocks["period"],
-        "tonnes_t": blocks["tonnes_t"],
-        **{r.column: cols.get(r.column, blocks.get(r.column)) for r in DEFAULT_FLAG_RULES
-           if r.column in cols or r.column in blocks},
-    })
+    frame = pd.DataFrame(
+        {
+            "block_id": blocks["block_id"],
+            "period": blocks["period"],
+            "tonnes_t": blocks["tonnes_t"],
+            **{
+                r.column: cols.get(r.column, blocks.get(r.column))
+                for r in DEFAULT_FLAG_RULES
+                if r.column in cols or r.column in blocks
+            },
+        }
+    )
     t_flag, flagged = timed(lambda: flag_blocks(frame, skip_missing=True), 1)
     t_look, _ = timed(lambda: lookahead_table(frame, current_period=1), 1)
     print(f"blocks: {n:,}; input columns: {len(names)}; forecast columns: {len(cols)}")
     print(f"baseline (one numpy pass over the inputs): {t_base:8.3f} s   ratio 1.0")
-    print(f"{'same pass as a plain numpy expression':44s} {t_expr:8.3f} s   ratio "
-          f"{t_expr / t_base:6.1f}")
-    for label, t in (("forecast_columns (all forecasts, P10/P90)", t_fc),
-                     ("flag level codes (all rules)", t_codes),
-                     ("forecasts + flag codes", t_fc + t_codes),
-                     ("flag_blocks (long table of flagged blocks)", t_flag),
-                     ("lookahead_table (by period)", t_look)):
+    print(
+        f"{'same pass as a plain numpy expression':44s} {t_expr:8.3f} s   ratio "
+        f"{t_expr / t_base:6.1f}"
+    )
+    for label, t in (
+        ("forecast_columns (all forecasts, P10/P90)", t_fc),
+        ("flag level codes (all rules)", t_codes),
+        ("forecasts + flag codes", t_fc + t_codes),
+        ("flag_blocks (long table of flagged blocks)", t_flag),
+        ("lookahead_table (by period)", t_look),
+    ):
         print(f"{label:44s} {t:8.3f} s   ratio {t / t_base:6.1f}")
     print(f"flagged block rows: {len(flagged):,}")
 

@@ -1,6 +1,6 @@
 """Benchmark: vectorised normative speciation against a per-row scipy.optimize.nnls loop.
 
-Run ``/work/venv/bin/python benchmarks/bench_speciation.py`` (1 million rows) or with
+Run ``python benchmarks/bench_speciation.py`` (1 million rows) or with
 ``--quick`` (100 000 rows). The baseline solves the same Cu-sulfide/pyrite problem of every row of
 a sample with ``scipy.optimize.nnls``, scaled to the full row count, in two ways: (A) matrices
 prepared beforehand so only the solver calls are timed (a conservative baseline), and (B) a plain

@@ -4,8 +4,8 @@ Compares :func:`geomet.io.workbook.write_workbook` (openpyxl for layout and styl
 streamed as SpreadsheetML) with the straightforward way measured in the same run: openpyxl's
 write-only mode with one styled cell per value (number format by column).
 
-    /work/venv/bin/python benchmarks/bench_workbook.py            # 50 000 rows x 60 columns
-    /work/venv/bin/python benchmarks/bench_workbook.py --quick    # 5 000 rows x 30 columns
+    python benchmarks/bench_workbook.py            # 50 000 rows x 60 columns
+    python benchmarks/bench_workbook.py --quick    # 5 000 rows x 30 columns
 """
 
 from __future__ import annotations

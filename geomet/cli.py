@@ -135,14 +135,20 @@ def build_parser() -> argparse.ArgumentParser:
 
     recipe = sub.add_parser(
         "recipe",
-        help="explain the recipe options",
+        help="explain the recipe options, write a starter recipe, or validate one",
         description=_para(
-            "Print every recipe option: key path, type, default, allowed values and "
+            "--explain prints every recipe option: key path, type, default, allowed values and "
             "meaning. Give a section (run, inputs, detection, or a step name) or a key "
-            "path inside one (e.g. blend.mill) to narrow the list."
+            "path inside one (e.g. blend.mill) to narrow the list. --template prints a "
+            "starter recipe with every option and its default; --validate checks a recipe "
+            "without running it."
         ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="examples:\n  geomet recipe --explain\n  geomet recipe --explain detection",
+        epilog=(
+            "examples:\n  geomet recipe --explain\n  geomet recipe --explain detection\n"
+            "  geomet recipe --template > vellantra.toml\n"
+            "  geomet recipe --validate vellantra.toml"
+        ),
     )
     recipe.add_argument(
         "--explain",
@@ -154,6 +160,9 @@ def build_parser() -> argparse.ArgumentParser:
     )
     recipe.add_argument(
         "--validate", type=Path, metavar="RECIPE", help="validate a recipe file without running it"
+    )
+    recipe.add_argument(
+        "--template", action="store_true", help="print a starter recipe with every option"
     )
     recipe.set_defaults(handler=_cmd_recipe)
 
@@ -311,8 +320,11 @@ def _cmd_demo(args) -> int:
 
 
 def _cmd_recipe(args) -> int:
-    from geomet.recipe import explain, load_recipe
+    from geomet.recipe import explain, load_recipe, template
 
+    if args.template:
+        print(template(), end="")
+        return EXIT_OK
     if args.validate is not None:
         recipe = load_recipe(args.validate)
         print(

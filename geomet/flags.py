@@ -52,8 +52,9 @@ class FlagRule:
                 f"got {self.direction!r}"
             )
             raise InputDataError(msg)
-        severe_first = self.alert >= self.watch if self.direction == "above" else (
-            self.alert <= self.watch)
+        severe_first = (
+            self.alert >= self.watch if self.direction == "above" else (self.alert <= self.watch)
+        )
         if not severe_first:
             rule = "alert >= watch" if self.direction == "above" else "alert <= watch"
             msg = (
@@ -65,20 +66,57 @@ class FlagRule:
 
 #: Default rules (assumptions, common practice; set site values through the ``flags`` options).
 DEFAULT_FLAG_RULES: tuple[FlagRule, ...] = (
-    FlagRule("clay_total", "clay_total_pct", 15.0, 25.0, "above",
-             "Total clay (smectite + kaolin group + illite): sticky feed, viscous pulp."),
-    FlagRule("swelling_clay", "clay_swelling_pct", 3.0, 6.0, "above",
-             "Swelling clay (smectite): slurry viscosity, lost recovery."),
-    FlagRule("sulfate", "sulfate_pct", 2.0, 5.0, "above",
-             "Gypsum + anhydrite: scaling, water chemistry, softer rock handling."),
-    FlagRule("acid_consumers", "acid_kg_t", 25.0, 50.0, "above",
-             "Leach acid consumption (gangue + oxide Cu)."),
-    FlagRule("oxide_ratio", "oxide_ratio_frac", 0.2, 0.4, "above",
-             "Acid-soluble to total Cu: copper lost to flotation tails."),
-    FlagRule("hardness", "bond_bwi_kwh_t", 16.0, 19.0, "above",
-             "Bond ball-mill work index: throughput limited by grinding power."),
-    FlagRule("low_recovery", "cu_recovery_frac", 0.85, 0.75, "below",
-             "Forecast rougher Cu recovery."),
+    FlagRule(
+        "clay_total",
+        "clay_total_pct",
+        15.0,
+        25.0,
+        "above",
+        "Total clay (smectite + kaolin group + illite): sticky feed, viscous pulp.",
+    ),
+    FlagRule(
+        "swelling_clay",
+        "clay_swelling_pct",
+        3.0,
+        6.0,
+        "above",
+        "Swelling clay (smectite): slurry viscosity, lost recovery.",
+    ),
+    FlagRule(
+        "sulfate",
+        "sulfate_pct",
+        2.0,
+        5.0,
+        "above",
+        "Gypsum + anhydrite: scaling, water chemistry, softer rock handling.",
+    ),
+    FlagRule(
+        "acid_consumers",
+        "acid_kg_t",
+        25.0,
+        50.0,
+        "above",
+        "Leach acid consumption (gangue + oxide Cu).",
+    ),
+    FlagRule(
+        "oxide_ratio",
+        "oxide_ratio_frac",
+        0.2,
+        0.4,
+        "above",
+        "Acid-soluble to total Cu: copper lost to flotation tails.",
+    ),
+    FlagRule(
+        "hardness",
+        "bond_bwi_kwh_t",
+        16.0,
+        19.0,
+        "above",
+        "Bond ball-mill work index: throughput limited by grinding power.",
+    ),
+    FlagRule(
+        "low_recovery", "cu_recovery_frac", 0.85, 0.75, "below", "Forecast rougher Cu recovery."
+    ),
 )
 
 
@@ -148,13 +186,13 @@ def flag_blocks(
         raise InputDataError(msg)
     have, lack = applicable_rules(blocks, rules)
     if lack and not skip_missing:
-        msg = (
-            "flag_blocks: block table lacks columns for flags "
-            + ", ".join(f"{r.flag} ({r.column})" for r in lack)
+        msg = "flag_blocks: block table lacks columns for flags " + ", ".join(
+            f"{r.flag} ({r.column})" for r in lack
         )
         raise InputDataError(msg)
-    carry = [c for c in ("block_id", "period", "phase", "domain", "tonnes_t")
-             if c in blocks.columns]
+    carry = [
+        c for c in ("block_id", "period", "phase", "domain", "tonnes_t") if c in blocks.columns
+    ]
     carried = {c: blocks[c].to_numpy() for c in carry}
     rows, rule_idx, codes_kept, values_kept = [], [], [], []
     for k, rule in enumerate(have):
@@ -233,7 +271,8 @@ def lookahead_table(
     have, lack = applicable_rules(blocks, rules)
     if lack:
         msg = "lookahead_table: block table lacks columns " + ", ".join(
-            f"{r.column} (flag {r.flag})" for r in lack)
+            f"{r.column} (flag {r.flag})" for r in lack
+        )
         raise InputDataError(msg)
     period = pd.to_numeric(blocks["period"], errors="coerce").to_numpy(dtype=float)
     keep = ~np.isnan(period) & (period >= current_period)
@@ -268,24 +307,41 @@ def lookahead_table(
                 listed = ""
                 if "domain" in blocks.columns and n_blocks[i]:
                     order = np.argsort(-dom_t[i], kind="stable")[:max_domains]
-                    listed = "; ".join(f"{dom_names[j]} {int(dom_n[i, j])} blocks"
-                                       for j in order if dom_n[i, j])
-                rows.append({
-                    "period": int(p),
-                    "periods_ahead": int(p - current_period),
-                    "flag": rule.flag,
-                    "level": level,
-                    "column": rule.column,
-                    "threshold": threshold,
-                    "direction": rule.direction,
-                    "flagged_t": float(flagged_t[i]),
-                    "period_ore_t": float(ore[i]),
-                    "flagged_share_frac": float(flagged_t[i] / ore[i]) if ore[i] > 0 else np.nan,
-                    "n_blocks": int(n_blocks[i]),
-                    "domains": listed,
-                    "description": rule.description,
-                })
-    cols = ["period", "periods_ahead", "flag", "level", "column", "threshold", "direction",
-            "flagged_t", "period_ore_t", "flagged_share_frac", "n_blocks", "domains",
-            "description"]
+                    listed = "; ".join(
+                        f"{dom_names[j]} {int(dom_n[i, j])} blocks" for j in order if dom_n[i, j]
+                    )
+                rows.append(
+                    {
+                        "period": int(p),
+                        "periods_ahead": int(p - current_period),
+                        "flag": rule.flag,
+                        "level": level,
+                        "column": rule.column,
+                        "threshold": threshold,
+                        "direction": rule.direction,
+                        "flagged_t": float(flagged_t[i]),
+                        "period_ore_t": float(ore[i]),
+                        "flagged_share_frac": float(flagged_t[i] / ore[i])
+                        if ore[i] > 0
+                        else np.nan,
+                        "n_blocks": int(n_blocks[i]),
+                        "domains": listed,
+                        "description": rule.description,
+                    }
+                )
+    cols = [
+        "period",
+        "periods_ahead",
+        "flag",
+        "level",
+        "column",
+        "threshold",
+        "direction",
+        "flagged_t",
+        "period_ore_t",
+        "flagged_share_frac",
+        "n_blocks",
+        "domains",
+        "description",
+    ]
     return pd.DataFrame(rows, columns=cols)

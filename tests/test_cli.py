@@ -255,3 +255,13 @@ def test_demo_run_end_to_end(repo_root, tmp_path, capsys):
         p.name: hashlib.sha256(p.read_bytes()).hexdigest()
         for p in (repo_root / "demo_data").glob("*.csv")
     }
+
+
+def test_recipe_template_round_trip(tmp_path, capsys):
+    assert main(["recipe", "--template"]) == 0
+    text = capsys.readouterr().out
+    assert text.startswith("# geomet recipe.")
+    path = tmp_path / "starter.toml"
+    path.write_text(text)
+    assert main(["recipe", "--validate", str(path)]) == 0
+    assert "valid; steps: check, composite" in capsys.readouterr().out

@@ -25,14 +25,16 @@ LOW_REC = FlagRule("low_recovery", "cu_recovery_frac", 0.85, 0.75, "below")
 
 @pytest.fixture
 def blocks():
-    return pd.DataFrame({
-        "block_id": [1, 2, 3, 4, 5, 6],
-        "period": [1, 2, 2, 3, 3, np.nan],
-        "domain": ["arg", "arg", "pot", "arg", "pot", "arg"],
-        "tonnes_t": [100.0, 200.0, 300.0, 400.0, 500.0, 600.0],
-        "clay_total_pct": [30.0, 16.0, 5.0, 26.0, 20.0, 40.0],
-        "cu_recovery_frac": [0.9, 0.8, 0.7, 0.95, 0.86, 0.5],
-    })
+    return pd.DataFrame(
+        {
+            "block_id": [1, 2, 3, 4, 5, 6],
+            "period": [1, 2, 2, 3, 3, np.nan],
+            "domain": ["arg", "arg", "pot", "arg", "pot", "arg"],
+            "tonnes_t": [100.0, 200.0, 300.0, 400.0, 500.0, 600.0],
+            "clay_total_pct": [30.0, 16.0, 5.0, 26.0, 20.0, 40.0],
+            "cu_recovery_frac": [0.9, 0.8, 0.7, 0.95, 0.86, 0.5],
+        }
+    )
 
 
 def test_levels_above_and_below():
@@ -52,8 +54,7 @@ def test_rule_errors():
 def test_flag_blocks(blocks):
     out = flag_blocks(blocks, [CLAY, LOW_REC])
     clay = out[out["flag"] == "clay_total"].set_index("block_id")
-    assert clay["level"].to_dict() == {1: "alert", 2: "watch", 4: "alert", 5: "watch",
-                                       6: "alert"}
+    assert clay["level"].to_dict() == {1: "alert", 2: "watch", 4: "alert", 5: "watch", 6: "alert"}
     assert clay.loc[2, "threshold"] == 15.0
     rec = out[out["flag"] == "low_recovery"].set_index("block_id")
     assert rec["level"].to_dict() == {2: "watch", 3: "alert", 6: "alert"}
@@ -61,8 +62,9 @@ def test_flag_blocks(blocks):
         flag_blocks(blocks, [CLAY, FlagRule("sulfate", "sulfate_pct", 2.0, 5.0)])
     with pytest.raises(InputDataError, match="needs a block_id column"):
         flag_blocks(blocks.drop(columns="block_id"), [CLAY])
-    with pytest.raises(InputDataError,
-                       match=r"flag names must be unique; repeated: \['clay_total'\]"):
+    with pytest.raises(
+        InputDataError, match=r"flag names must be unique; repeated: \['clay_total'\]"
+    ):
         flag_blocks(blocks, [CLAY, CLAY])
 
 
@@ -98,8 +100,14 @@ def test_lookahead_by_hand(blocks):
 def test_lookahead_tonnes_bounded_and_alert_within_watch(values, seed):
     rng = np.random.default_rng(seed)
     n = len(values)
-    b = pd.DataFrame({"block_id": np.arange(n), "period": rng.integers(1, 4, n),
-                      "tonnes_t": rng.uniform(1, 100, n), "clay_total_pct": values})
+    b = pd.DataFrame(
+        {
+            "block_id": np.arange(n),
+            "period": rng.integers(1, 4, n),
+            "tonnes_t": rng.uniform(1, 100, n),
+            "clay_total_pct": values,
+        }
+    )
     look = lookahead_table(b, [CLAY])
     flagged = flag_blocks(b, [CLAY])
     # The long table and the look-ahead agree: watch-level tonnes by period.
@@ -116,9 +124,11 @@ def test_lookahead_tonnes_bounded_and_alert_within_watch(values, seed):
 
 def test_flags_step_with_overrides(blocks, tmp_path):
     step = STEPS["flags"]
-    opts = step.options(current_period=1, thresholds={"clay_total": {"watch": 25.0,
-                                                                     "alert": 35.0}},
-                        disabled=["hardness"])
+    opts = step.options(
+        current_period=1,
+        thresholds={"clay_total": {"watch": 25.0, "alert": 35.0}},
+        disabled=["hardness"],
+    )
     ctx = StepContext(tables={"block_forecasts": blocks}, plot_dir=tmp_path)
     out = step.func(ctx, opts)
     assert (tmp_path / "flagged_tonnes_by_period.png").exists()
@@ -134,8 +144,9 @@ def test_flags_step_option_errors(blocks):
     ctx = StepContext(tables={"block_forecasts": blocks})
     with pytest.raises(RecipeError, match=r"disabled names unknown flags \['clay'\]"):
         step.func(ctx, step.options(disabled=["clay"]))
-    with pytest.raises(RecipeError,
-                       match=r"is a new flag and needs \['column', 'watch', 'alert'\]"):
+    with pytest.raises(
+        RecipeError, match=r"is a new flag and needs \['column', 'watch', 'alert'\]"
+    ):
         step.func(ctx, step.options(thresholds={"arsenic": {}}))
     with pytest.raises(RecipeError, match="thresholds need alert >= watch"):
         step.func(ctx, step.options(thresholds={"clay_total": {"watch": 40.0}}))

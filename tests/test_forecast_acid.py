@@ -46,8 +46,7 @@ def test_nu_is_half_the_cation_charge(mineral):
     # Full dissolution: H+ consumed = charge of the cations released (Si to silica, C to CO2);
     # valences Ca, Mg, Fe(II), Cu 2; Al 3; K 1; epidote's Fe is Fe(III) (textbook chemistry).
     counts = _reference(mineral)[1]
-    valence = {"Ca": 2, "Mg": 2, "Fe": 3 if mineral == "epidote" else 2, "Cu": 2, "Al": 3,
-               "K": 1}
+    valence = {"Ca": 2, "Mg": 2, "Fe": 3 if mineral == "epidote" else 2, "Cu": 2, "Al": 3, "K": 1}
     charge = sum(valence.get(el, 0) * n for el, n in counts.items())
     assert acid.ACID_REACTIONS[mineral].nu_mol_per_mol == pytest.approx(charge / 2)
 
@@ -63,13 +62,16 @@ def test_malachite_factor_equals_its_copper_acid():
     # Consistency: acid per kg malachite = Cu fraction × acid per kg Cu (2 Cu per formula).
     cu_frac = Formula("Cu2CO3(OH)2").composition()["Cu"].fraction
     assert acid.acid_factor_kg_per_kg("malachite") == pytest.approx(
-        cu_frac * acid.acid_per_kg_cu(), rel=3e-4)
+        cu_frac * acid.acid_per_kg_cu(), rel=3e-4
+    )
 
 
 def test_gangue_acid_sums_reactive_minerals():
     out = acid.gangue_acid_kg_t({"calcite": 1.0, "chlorite": 10.0})
-    expected = 10 * (1.0 * acid.acid_factor_kg_per_kg("calcite")
-                     + 10.0 * 0.12 * acid.acid_factor_kg_per_kg("chlorite"))
+    expected = 10 * (
+        1.0 * acid.acid_factor_kg_per_kg("calcite")
+        + 10.0 * 0.12 * acid.acid_factor_kg_per_kg("chlorite")
+    )
     assert float(out) == pytest.approx(expected)
     full = acid.gangue_acid_kg_t({"chlorite": 10.0}, reactivity={"chlorite": 1.0})
     assert float(full) == pytest.approx(100 * acid.acid_factor_kg_per_kg("chlorite"))
@@ -94,8 +96,14 @@ def test_acid_errors():
 
 
 @settings(max_examples=50, deadline=None)
-@given(x=st.lists(st.floats(0, 20), min_size=len(acid.GANGUE_ACID_MINERALS),
-                  max_size=len(acid.GANGUE_ACID_MINERALS)), d=st.floats(0.01, 5))
+@given(
+    x=st.lists(
+        st.floats(0, 20),
+        min_size=len(acid.GANGUE_ACID_MINERALS),
+        max_size=len(acid.GANGUE_ACID_MINERALS),
+    ),
+    d=st.floats(0.01, 5),
+)
 def test_acid_non_negative_and_rising_with_carbonate(x, d):
     minerals = dict(zip(acid.GANGUE_ACID_MINERALS, x, strict=True))
     a = float(acid.gangue_acid_kg_t(minerals))

@@ -23,9 +23,14 @@ def fitted():
     targets = {
         name: cal.make_model(name, "none").fit(None, None).predict(X) * 1.05
         + rng.normal(0, scale, len(X))
-        for name, scale in (("bond_bwi_kwh_t", 0.5), ("smc_axb", 3.0), ("smc_mia_kwh_t", 1.0),
-                            ("cu_recovery_frac", 0.02), ("au_recovery_frac", 0.03),
-                            ("acid_kg_t", 1.5))
+        for name, scale in (
+            ("bond_bwi_kwh_t", 0.5),
+            ("smc_axb", 3.0),
+            ("smc_mia_kwh_t", 1.0),
+            ("cu_recovery_frac", 0.02),
+            ("au_recovery_frac", 0.03),
+            ("acid_kg_t", 1.5),
+        )
     }
     models, _ = cal.fit_all(X, targets, df["hole_id"], n_splits=3)
     return models
@@ -46,21 +51,25 @@ def test_all_columns_and_intervals_ordered(fitted):
     np.testing.assert_allclose(out["acid_kg_t"], out["acid_gangue_kg_t"] + out["acid_oxide_kg_t"])
     # mill_energy is the energy the throughput implies: Q = P u / mill_energy.
     s = ap.PlantSettings()
-    np.testing.assert_allclose(out["throughput_tph"],
-                               s.mill_power_kw * s.utilisation_frac / out["mill_energy_kwh_t"])
+    np.testing.assert_allclose(
+        out["throughput_tph"], s.mill_power_kw * s.utilisation_frac / out["mill_energy_kwh_t"]
+    )
 
 
 def test_energy_matches_hand_chain():
-    s = ap.PlantSettings(f80_um=100_000.0, p80_um=150.0, ball_mill_diameter_m=None,
-                         pebble_crusher=False)
+    s = ap.PlantSettings(
+        f80_um=100_000.0, p80_um=150.0, ball_mill_diameter_m=None, pebble_crusher=False
+    )
     w = float(ap.specific_energy_kwh_t(14.0, 20.0, s))
     coarse = float(comm.morrell_stage_energy(20.0, 100_000.0, 750.0))
     fine = float(comm.bond_specific_energy(14.0, 750.0, 150.0))  # EF4 = EF5 = 1 here
     assert w == pytest.approx(coarse + fine)
-    bond = ap.PlantSettings(energy_method="bond", f80_um=2_000.0, p80_um=150.0,
-                            ball_mill_diameter_m=None)
+    bond = ap.PlantSettings(
+        energy_method="bond", f80_um=2_000.0, p80_um=150.0, ball_mill_diameter_m=None
+    )
     assert float(ap.specific_energy_kwh_t(14.0, 20.0, bond)) == pytest.approx(
-        float(comm.bond_specific_energy(14.0, 2_000.0, 150.0)))
+        float(comm.bond_specific_energy(14.0, 2_000.0, 150.0))
+    )
 
 
 def test_settings_errors():
@@ -89,21 +98,24 @@ def test_defaults_without_models_have_no_intervals():
 
 def test_missing_mineralogy_columns_named():
     df = synthetic_mineralogy(5).drop(columns=["clay_swelling_pct"])
-    with pytest.raises(InputDataError,
-                       match=r"blocks: forecasts need columns \['clay_swelling_pct'\]"):
+    with pytest.raises(
+        InputDataError, match=r"blocks: forecasts need columns \['clay_swelling_pct'\]"
+    ):
         ap.forecast_columns(df, where="blocks")
 
 
 def test_domain_forecasts_aggregate_by_hand():
-    t = pd.DataFrame({
-        "domain": ["a", "a", "b"],
-        "tonnes_t": [100.0, 300.0, 50.0],
-        "cu_pct": [1.0, 0.5, 0.2],
-        "throughput_tph": [1000.0, 2000.0, 1500.0],
-        "cu_recovery_frac": [0.9, 0.8, 0.7],
-        "conc_cu_pct": [20.0, 25.0, 22.0],
-        "acid_kg_t": [10.0, 30.0, 5.0],
-    })
+    t = pd.DataFrame(
+        {
+            "domain": ["a", "a", "b"],
+            "tonnes_t": [100.0, 300.0, 50.0],
+            "cu_pct": [1.0, 0.5, 0.2],
+            "throughput_tph": [1000.0, 2000.0, 1500.0],
+            "cu_recovery_frac": [0.9, 0.8, 0.7],
+            "conc_cu_pct": [20.0, 25.0, 22.0],
+            "acid_kg_t": [10.0, 30.0, 5.0],
+        }
+    )
     out = ap.domain_forecasts(t).set_index("domain")
     # Hours: 100/1000 + 300/2000 = 0.25 h for 400 t -> 1600 t/h (harmonic mean).
     assert out.loc["a", "throughput_tph"] == pytest.approx(1600.0)
@@ -118,15 +130,23 @@ def test_domain_forecasts_aggregate_by_hand():
 
 
 def test_overlap_join_length_weighted():
-    comps = pd.DataFrame({
-        "hole_id": ["H1", "H1", "H1", "H2"],
-        "from_m": [0.0, 2.0, 4.0, 0.0],
-        "to_m": [2.0, 4.0, 6.0, 2.0],
-        "clay_total_pct": [10.0, 20.0, np.nan, 5.0],
-        "domain": ["x", "y", "y", "z"],
-    })
-    samples = pd.DataFrame({"sample_id": ["S1", "S2", "S3"], "hole_id": ["H1", "H1", "H3"],
-                            "from_m": [1.0, 3.0, 0.0], "to_m": [4.0, 6.0, 1.0]})
+    comps = pd.DataFrame(
+        {
+            "hole_id": ["H1", "H1", "H1", "H2"],
+            "from_m": [0.0, 2.0, 4.0, 0.0],
+            "to_m": [2.0, 4.0, 6.0, 2.0],
+            "clay_total_pct": [10.0, 20.0, np.nan, 5.0],
+            "domain": ["x", "y", "y", "z"],
+        }
+    )
+    samples = pd.DataFrame(
+        {
+            "sample_id": ["S1", "S2", "S3"],
+            "hole_id": ["H1", "H1", "H3"],
+            "from_m": [1.0, 3.0, 0.0],
+            "to_m": [4.0, 6.0, 1.0],
+        }
+    )
     out = overlap_join(samples, comps, ["clay_total_pct", "domain"])
     # S1: 1 m at 10 + 2 m at 20 -> 16.667; S2: 1 m at 20 (the NaN metres do not dilute).
     assert out["clay_total_pct"].iloc[0] == pytest.approx(50 / 3)

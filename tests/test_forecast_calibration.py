@@ -45,8 +45,11 @@ def test_linear_model_recovers_known_coefficients(samples):
     for k, v in truth.items():
         assert model.coefficients_[k] == pytest.approx(v, abs=1e-4)
     # sklearn API: params round-trip and clone.
-    assert clone(model).get_params() == {"alpha": 1e-6, "calibrate": True,
-                                         "response": "bond_bwi_kwh_t"}
+    assert clone(model).get_params() == {
+        "alpha": 1e-6,
+        "calibrate": True,
+        "response": "bond_bwi_kwh_t",
+    }
 
 
 def test_linear_model_shrinks_to_defaults_with_large_alpha(samples):
@@ -65,7 +68,8 @@ def test_kinetic_model_recovers_truth(samples):
     rng = np.random.default_rng(0)
     y = truth.predict(X) + rng.normal(0, 0.01, len(X))
     model = cal.KineticRecoveryModel(
-        fit_params=["r_inf_scale", "swelling_per_pct", "oxide_recovery_frac"]).fit(X, y)
+        fit_params=["r_inf_scale", "swelling_per_pct", "oxide_recovery_frac"]
+    ).fit(X, y)
     assert model.params_["r_inf_scale"] == pytest.approx(0.96, abs=0.01)
     assert model.params_["swelling_per_pct"] == pytest.approx(0.04, abs=0.005)
     assert model.params_["oxide_recovery_frac"] == pytest.approx(0.3, abs=0.05)
@@ -92,7 +96,8 @@ def test_calibrate_response_splits_by_hole_and_reports(samples):
     df, X = samples
     rng = np.random.default_rng(1)
     y = cal.LinearResponseModel(calibrate=False).fit(None, None).predict(X) * 1.15 + rng.normal(
-        0, 0.3, len(X))
+        0, 0.3, len(X)
+    )
     groups = df["hole_id"].to_numpy()
     model, report = cal.calibrate_response(cal.LinearResponseModel(), X, y, groups, n_splits=4)
     assert report["n"] == len(X)
@@ -137,8 +142,9 @@ def test_json_round_trip(samples, method):
         text = json.dumps(cal.model_to_json(model))
         back = cal.model_from_json(json.loads(text))
         np.testing.assert_allclose(back.predict(X), model.predict(X), rtol=1e-12)
-        np.testing.assert_allclose(back.predict_interval(X)[1], model.predict_interval(X)[1],
-                                   rtol=1e-12)
+        np.testing.assert_allclose(
+            back.predict_interval(X)[1], model.predict_interval(X)[1], rtol=1e-12
+        )
         assert name in cal.RESPONSES
 
 
@@ -155,8 +161,9 @@ def test_concentrate_model_recovers_power_law(samples):
         cal.ConcentrateModel().fit(X.iloc[:2], y[:2])
     # fit_all fits the concentrate after Cu recovery, on the fitted Cu coefficients.
     rec = cal.KineticRecoveryModel(calibrate=False).fit(None, None).predict(X)
-    models, _ = cal.fit_all(X, {"conc_cu_pct": y, "cu_recovery_frac": rec}, df["hole_id"],
-                            n_splits=3)
+    models, _ = cal.fit_all(
+        X, {"conc_cu_pct": y, "cu_recovery_frac": rec}, df["hole_id"], n_splits=3
+    )
     assert models["conc_cu_pct"].cu_params == models["cu_recovery_frac"].full_params()
 
 
@@ -178,5 +185,7 @@ def test_too_few_tests_fall_back_to_defaults(samples):
     y[:3] = 12.0
     models, report = cal.fit_all(X, {"bond_bwi_kwh_t": y}, df["hole_id"])
     assert report["method"].tolist() == ["none"]
-    assert models["bond_bwi_kwh_t"].coefficients_ == cal.DEFAULT_HARDNESS_COEFFICIENTS[
-        "bond_bwi_kwh_t"]
+    assert (
+        models["bond_bwi_kwh_t"].coefficients_
+        == cal.DEFAULT_HARDNESS_COEFFICIENTS["bond_bwi_kwh_t"]
+    )

@@ -88,15 +88,17 @@ def test_morrell_stage_energy_hand_arithmetic():
     assert expected == pytest.approx(10.445, abs=1e-3)
     k = comm.MORRELL_K["pebble_crusher"]
     assert float(comm.morrell_stage_energy(20.0, 100_000.0, 750.0, k=k)) == pytest.approx(
-        0.95 * expected)
+        0.95 * expected
+    )
 
 
 def test_morrell_types():
     s = pd.Series([15.0, 20.0], index=["x", "y"])
     out = comm.morrell_specific_energy(s, s, 100_000.0, 150.0)
     assert list(out.index) == ["x", "y"]
-    np.testing.assert_allclose(comm.morrell_specific_energy(s.to_numpy(), s.to_numpy(),
-                                                            100_000.0, 150.0), out.to_numpy())
+    np.testing.assert_allclose(
+        comm.morrell_specific_energy(s.to_numpy(), s.to_numpy(), 100_000.0, 150.0), out.to_numpy()
+    )
 
 
 def test_morrell_total_is_sum_of_stages():
@@ -110,8 +112,11 @@ def test_morrell_total_is_sum_of_stages():
 
 @settings(max_examples=60, deadline=None)
 @given(
-    wi=st.floats(5, 30), dwi=st.floats(0.01, 10),
-    f80=st.floats(1_000, 200_000), p80=st.floats(20, 500), ball_f80=st.floats(600, 4_000),
+    wi=st.floats(5, 30),
+    dwi=st.floats(0.01, 10),
+    f80=st.floats(1_000, 200_000),
+    p80=st.floats(20, 500),
+    ball_f80=st.floats(600, 4_000),
 )
 def test_energy_rises_with_work_index_and_fineness(wi, dwi, f80, p80, ball_f80):
     w1 = float(comm.bond_specific_energy(wi, f80, p80))

@@ -20,14 +20,25 @@ from geomet.forecast.join import overlap_join
 from geomet.forecast.testwork import reduce_flotation_tests
 
 # Laboratory headers of the demo assays file (as mapped in recipes/demo.toml).
-ASSAY_MAP = {"HoleID": "hole_id", "From": "from_m", "To": "to_m", "Cu_%": "cu_pct",
-             "Au_ppb": "au_gpt", "CuAS_%": "cu_asol_pct"}
+ASSAY_MAP = {
+    "HoleID": "hole_id",
+    "From": "from_m",
+    "To": "to_m",
+    "Cu_%": "cu_pct",
+    "Au_ppb": "au_gpt",
+    "CuAS_%": "cu_asol_pct",
+}
 
 
 @pytest.fixture(scope="module")
 def demo(demo_dir):
-    needed = ["testwork.csv", "scan.csv", "assays.csv", "truth/testwork_truth.csv",
-              "truth/parameters.json"]
+    needed = [
+        "testwork.csv",
+        "scan.csv",
+        "assays.csv",
+        "truth/testwork_truth.csv",
+        "truth/parameters.json",
+    ]
     if not all((demo_dir / n).exists() for n in needed):
         pytest.skip("demo data not generated yet")
     from geomet.io.readers import read_table
@@ -36,24 +47,32 @@ def demo(demo_dir):
     # testwork.csv and scan.csv carry canonical headers and units; assays need the reader.
     testwork = pd.read_csv(demo_dir / "testwork.csv")
     scan = pd.read_csv(demo_dir / "scan.csv")
-    assays = read_table(demo_dir / "assays.csv", table="assays", column_map=ASSAY_MAP,
-                        units={"au_gpt": "ppb"}).table
+    assays = read_table(
+        demo_dir / "assays.csv", table="assays", column_map=ASSAY_MAP, units={"au_gpt": "ppb"}
+    ).table
     truth = pd.read_csv(demo_dir / "truth" / "testwork_truth.csv").set_index("sample_id")
     params = json.loads((demo_dir / "truth" / "parameters.json").read_text())["testwork"]
-    minerals = [c for c in scan.columns if c.endswith("_pct") and not c.endswith("_limit")
-                and pd.api.types.is_float_dtype(scan[c])]
+    minerals = [
+        c
+        for c in scan.columns
+        if c.endswith("_pct") and not c.endswith("_limit") and pd.api.types.is_float_dtype(scan[c])
+    ]
     joined = overlap_join(testwork, scan, minerals)
     joined = overlap_join(joined, assays, ["cu_pct", "au_gpt", "cu_asol_pct"])
     joined = reduce_flotation_tests(add_mineralogy_columns(joined))
     X = pd.DataFrame(resolve_inputs(joined))
     truth = truth.loc[joined["sample_id"]]
     measured = {
-        "bond_bwi_kwh_t": joined["bond_bwi_kwh_t"], "smc_axb": joined["smc_axb"],
-        "smc_mia_kwh_t": joined["smc_mia_kwh_t"], "cu_recovery_frac": joined["cu_recovery_frac"],
-        "au_recovery_frac": joined["au_recovery_frac"], "acid_kg_t": joined["leach_acid_kg_t"],
+        "bond_bwi_kwh_t": joined["bond_bwi_kwh_t"],
+        "smc_axb": joined["smc_axb"],
+        "smc_mia_kwh_t": joined["smc_mia_kwh_t"],
+        "cu_recovery_frac": joined["cu_recovery_frac"],
+        "au_recovery_frac": joined["au_recovery_frac"],
+        "acid_kg_t": joined["leach_acid_kg_t"],
     }
     true = {
-        "bond_bwi_kwh_t": truth["bond_bwi_kwh_t"], "smc_axb": truth["smc_axb"],
+        "bond_bwi_kwh_t": truth["bond_bwi_kwh_t"],
+        "smc_axb": truth["smc_axb"],
         "smc_mia_kwh_t": truth["smc_mia_kwh_t"],
         "cu_recovery_frac": truth["rougher_cu_recovery_pct"] / 100.0,
         "au_recovery_frac": truth["rougher_au_recovery_pct"] / 100.0,
@@ -62,7 +81,9 @@ def demo(demo_dir):
     time_min = params["rougher_cu"]["time_min"]
     kw = {"time_min": time_min}
     models, report = cal.fit_all(
-        X, {k: np.asarray(v, float) for k, v in measured.items()}, joined["hole_id"],
+        X,
+        {k: np.asarray(v, float) for k, v in measured.items()},
+        joined["hole_id"],
         model_kwargs={"cu_recovery_frac": kw, "au_recovery_frac": kw},
     )
     return X, measured, true, models, report, params
@@ -90,8 +111,17 @@ def test_bond_error_against_stated_noise(demo):
     assert error < 0.5 * params["noise"]["bond_bwi_kwh_t_sd"]
 
 
-@pytest.mark.parametrize("response", ["bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t",
-                                      "cu_recovery_frac", "au_recovery_frac", "acid_kg_t"])
+@pytest.mark.parametrize(
+    "response",
+    [
+        "bond_bwi_kwh_t",
+        "smc_axb",
+        "smc_mia_kwh_t",
+        "cu_recovery_frac",
+        "au_recovery_frac",
+        "acid_kg_t",
+    ],
+)
 def test_calibration_removes_the_measurement_noise(demo, response):
     # The error against the truth has two parts: the model form and its inputs (what the same
     # model fitted to the noise-free truth still misses: the "floor") and what the measurement

@@ -24,17 +24,21 @@ def tables():
     X = pd.DataFrame(resolve_inputs(picked))
     testwork = picked[["hole_id", "from_m", "to_m"]].reset_index(drop=True)
     testwork.insert(0, "sample_id", [f"OVR-{i:03d}" for i in range(len(testwork))])
-    for name, col, scale in (("bond_bwi_kwh_t", "bond_bwi_kwh_t", 0.5),
-                             ("smc_axb", "smc_axb", 3.0),
-                             ("smc_mia_kwh_t", "smc_mia_kwh_t", 0.8),
-                             ("acid_kg_t", "leach_acid_kg_t", 1.5)):
+    for name, col, scale in (
+        ("bond_bwi_kwh_t", "bond_bwi_kwh_t", 0.5),
+        ("smc_axb", "smc_axb", 3.0),
+        ("smc_mia_kwh_t", "smc_mia_kwh_t", 0.8),
+        ("acid_kg_t", "leach_acid_kg_t", 1.5),
+    ):
         testwork[col] = cal.make_model(name, "none").fit(None, None).predict(X) + rng.normal(
-            0, scale, len(X))
+            0, scale, len(X)
+        )
     rec = cal.make_model("cu_recovery_frac", "none").fit(None, None).predict(X)
     testwork["rougher_cu_recovery_pct"] = 100 * rec + rng.normal(0, 1.5, len(X))
     testwork["feed_cu_pct"] = X["cu_pct"].to_numpy()
-    blocks = synthetic_mineralogy(800, seed=32).drop(columns=["hole_id", "from_m", "to_m",
-                                                             "length_m"])
+    blocks = synthetic_mineralogy(800, seed=32).drop(
+        columns=["hole_id", "from_m", "to_m", "length_m"]
+    )
     blocks.insert(0, "block_id", np.arange(len(blocks)))
     blocks["tonnes_t"] = 30_000.0
     blocks["period"] = rng.integers(1, 6, len(blocks))
@@ -50,8 +54,13 @@ def test_forecast_step_outputs(tables, method, tmp_path):
     out = step.func(ctx, step.options(calibration_method=method))
     assert set(out) == set(step.produces)
     report = out["calibration_report"].set_index("response")
-    assert set(report.index) == {"bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t",
-                                 "cu_recovery_frac", "acid_kg_t"}
+    assert set(report.index) == {
+        "bond_bwi_kwh_t",
+        "smc_axb",
+        "smc_mia_kwh_t",
+        "cu_recovery_frac",
+        "acid_kg_t",
+    }
     assert (report["n"] == 90).all()
     assert (report["method"] == method).all()
     blocks = out["block_forecasts"]

@@ -27,33 +27,38 @@ def test_two_product_undefined_outside_c_f_t():
     # nickzom.org's example (c 12, f 14, t 20) reports 64.28 % although t > f; the formula is
     # undefined there (Wills & Finch 2016: it needs c > f > t).
     assert np.isnan(tw.two_product_recovery_frac(14.0, 12.0, 20.0))
-    out = tw.two_product_recovery_frac(np.array([1.0, 14.0]), np.array([10.0, 12.0]),
-                                       np.array([0.2, 20.0]))
+    out = tw.two_product_recovery_frac(
+        np.array([1.0, 14.0]), np.array([10.0, 12.0]), np.array([0.2, 20.0])
+    )
     assert out[0] == pytest.approx(0.816327, abs=1e-6)
     assert np.isnan(out[1])
     with pytest.raises(InputDataError, match=r"needs c > f > t >= 0; got row 1: f=14, c=12, t=20"):
-        tw.two_product_recovery_frac(np.array([1.0, 14.0]), np.array([10.0, 12.0]),
-                                     np.array([0.2, 20.0]), on_invalid="raise")
+        tw.two_product_recovery_frac(
+            np.array([1.0, 14.0]), np.array([10.0, 12.0]), np.array([0.2, 20.0]), on_invalid="raise"
+        )
     with pytest.raises(InputDataError, match="on_invalid must be one of"):
         tw.two_product_yield_frac(1.0, 10.0, 0.2, on_invalid="ignore")
 
 
 def test_two_product_series():
     f = pd.Series([1.0, 0.5], index=["S1", "S2"])
-    out = tw.two_product_recovery_frac(f, pd.Series([10.0, 20.0], index=f.index),
-                                       pd.Series([0.2, 0.05], index=f.index))
+    out = tw.two_product_recovery_frac(
+        f, pd.Series([10.0, 20.0], index=f.index), pd.Series([0.2, 0.05], index=f.index)
+    )
     assert list(out.index) == ["S1", "S2"]
     assert out["S2"] == pytest.approx(20 * 0.45 / (0.5 * 19.95))
 
 
 def test_reduce_flotation_tests_flags():
-    table = pd.DataFrame({
-        "sample_id": ["A", "B", "C"],
-        "feed_cu_pct": [1.0, 14.0, 0.5],
-        "conc_cu_pct": [10.0, 12.0, 20.0],
-        "tail_cu_pct": [0.2, 20.0, 0.05],
-        "rougher_cu_recovery_pct": [81.6, np.nan, 70.0],
-    })
+    table = pd.DataFrame(
+        {
+            "sample_id": ["A", "B", "C"],
+            "feed_cu_pct": [1.0, 14.0, 0.5],
+            "conc_cu_pct": [10.0, 12.0, 20.0],
+            "tail_cu_pct": [0.2, 20.0, 0.05],
+            "rougher_cu_recovery_pct": [81.6, np.nan, 70.0],
+        }
+    )
     out = tw.reduce_flotation_tests(table)
     assert out["cu_assays_invalid"].tolist() == [False, True, False]
     assert out["cu_recovery_frac"].iloc[0] == pytest.approx(0.816)

@@ -20,13 +20,16 @@ def test_power_limited_throughput_definition():
     assert list(out.index) == [3, 4]
     np.testing.assert_allclose(out, [2000.0, 1000.0])
     np.testing.assert_allclose(
-        thr.power_limited_throughput_tph(1000.0, 1.0, np.array([1.0, 2.0])), [1000.0, 500.0])
+        thr.power_limited_throughput_tph(1000.0, 1.0, np.array([1.0, 2.0])), [1000.0, 500.0]
+    )
 
 
 @pytest.mark.parametrize(
     ("kwargs", "match"),
-    [({"utilisation_frac": 1.5}, r"utilisation_frac must be in \(0, 1\]"),
-     ({"mill_power_kw": -1.0}, "mill_power_kw must be positive")],
+    [
+        ({"utilisation_frac": 1.5}, r"utilisation_frac must be in \(0, 1\]"),
+        ({"mill_power_kw": -1.0}, "mill_power_kw must be positive"),
+    ],
 )
 def test_power_limited_throughput_errors(kwargs, match):
     args = {"mill_power_kw": 1000.0, "utilisation_frac": 0.9, "specific_energy_kwh_t": 10.0}
@@ -42,7 +45,8 @@ def test_clay_penalty_zero_without_clay_and_half_at_midpoint():
     assert p == pytest.approx(0.5 * thr.DEFAULT_CLAY_PENALTY["max_loss_frac"], rel=1e-6)
     # Swelling clay weighs more: 1 % smectite = swelling_weight index units.
     assert float(thr.clay_penalty_frac(10.0, 1.0)) == pytest.approx(
-        float(thr.clay_penalty_frac(12.0, 0.0)))
+        float(thr.clay_penalty_frac(12.0, 0.0))
+    )
 
 
 def test_clay_penalty_types():

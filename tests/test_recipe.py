@@ -382,3 +382,51 @@ def test_unknown_key_without_close_match_lists_valid_keys(tmp_path):
         r"periods, mill\)",
     ):
         parse('[run]\nsteps = ["plan_test"]\n[plan_test]\nxyz = 1\n', tmp_path)
+
+
+def test_template_is_a_recipe_whose_commented_defaults_are_the_defaults(tmp_path):
+    import re
+
+    from geomet.recipe.explain import template
+    from geomet.run.pipeline import order_steps
+    from geomet.run.registry import load_steps
+
+    text = template()
+    recipe = parse_recipe(text, base_dir=tmp_path, source="template")  # valid as it is
+    steps = load_steps()
+    assert recipe.run.steps == [s.name for s in order_steps(list(steps), steps)]
+    # Un-comment every option line after [detection]: the values written are the defaults.
+    head, tail = text.split("[detection]", 1)
+    tail, count = re.subn(r"(?m)^# ([A-Za-z_][\w.]* = )", r"\1", tail)
+    assert count > 20
+    full = parse_recipe(head + "[detection]" + tail, base_dir=tmp_path, source="template")
+    assert full.detection == recipe.detection
+    assert set(full.options) == set(recipe.options) == set(steps)
+    for name in steps:
+        assert full.options[name].model_dump() == recipe.options[name].model_dump()
+
+
+def test_template_of_a_small_registry(tmp_path):
+    from geomet.recipe.explain import template
+
+    text = template(registry=REGISTRY)
+    assert "[plan_test]\n" in text
+    assert '# solver = "highs"' in text
+    assert "# mill.clay_max_pct = 6.0" in text
+    assert tomllib.loads(text)["run"]["steps"] == ["plan_test"]
+
+
+def test_sheets_must_be_tables_the_steps_produce(tmp_path):
+    path = write_recipe(tmp_path, extra="")
+    path.write_text(
+        path.read_text().replace(
+            'workbook = "vellantra_test.xlsx"', 'workbook = "v.xlsx"\nsheets = ["composite"]'
+        )
+    )
+    with pytest.raises(
+        RecipeError,
+        match=r"run\.sheets: table 'composite' is not produced by the "
+        r"steps in run\.steps; did you mean 'composites'\? \(they "
+        r"produce: validation_report, composites\)",
+    ):
+        load_recipe(path)

@@ -526,3 +526,18 @@ def test_result_repr_is_short(steps):
     )
     text = repr(run_steps({}, ["one_test"]))
     assert text == "RunResult(steps=[one_test], outputs=[t_one (5,000 rows)], plots=0, warnings=0)"
+
+
+def test_sheets_option_chooses_workbook_sheets(tmp_path):
+    import openpyxl
+
+    recipe = write_recipe(tmp_path)
+    recipe.write_text(
+        recipe.read_text().replace(
+            'workbook = "vellantra_test.xlsx"', 'workbook = "v.xlsx"\nsheets = ["composites"]'
+        )
+    )
+    run_recipe(recipe, show_progress=False)
+    names = openpyxl.load_workbook(tmp_path / "out" / "v.xlsx", read_only=True).sheetnames
+    assert names == ["About this run", "Composites", "Column guide", "Recipe"]
+    assert (tmp_path / "out" / "tables" / "validation_report.csv").is_file()

@@ -35,13 +35,31 @@ ENERGY_METHODS = ("smc_bond", "bond")
 
 HARDNESS_RESPONSES = ("bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t")
 INTERVAL_COLUMNS = (
-    "bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t", "specific_energy_kwh_t", "mill_energy_kwh_t",
-    "throughput_tph", "cu_recovery_frac", "au_recovery_frac", "acid_kg_t",
+    "bond_bwi_kwh_t",
+    "smc_axb",
+    "smc_mia_kwh_t",
+    "specific_energy_kwh_t",
+    "mill_energy_kwh_t",
+    "throughput_tph",
+    "cu_recovery_frac",
+    "au_recovery_frac",
+    "acid_kg_t",
 )
 FORECAST_COLUMNS = (
-    "bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t", "specific_energy_kwh_t", "clay_penalty_frac",
-    "throughput_tph", "throughput_clay_loss_tph", "mill_energy_kwh_t", "cu_recovery_frac",
-    "au_recovery_frac", "conc_cu_pct", "conc_mass_pull_frac", "acid_kg_t", "acid_gangue_kg_t",
+    "bond_bwi_kwh_t",
+    "smc_axb",
+    "smc_mia_kwh_t",
+    "specific_energy_kwh_t",
+    "clay_penalty_frac",
+    "throughput_tph",
+    "throughput_clay_loss_tph",
+    "mill_energy_kwh_t",
+    "cu_recovery_frac",
+    "au_recovery_frac",
+    "conc_cu_pct",
+    "conc_mass_pull_frac",
+    "acid_kg_t",
+    "acid_gangue_kg_t",
     "acid_oxide_kg_t",
     *(f"{c}_{s}" for c in INTERVAL_COLUMNS for s in ("p10", "p90")),
 )
@@ -128,7 +146,9 @@ def specific_energy_kwh_t(bwi_kwh_t, mia_kwh_t, settings: PlantSettings):
     """
     if settings.energy_method == "bond":
         return comm.bond_ball_mill_energy(
-            bwi_kwh_t, settings.f80_um, settings.p80_um,
+            bwi_kwh_t,
+            settings.f80_um,
+            settings.p80_um,
             mill_diameter_m=settings.ball_mill_diameter_m,
         )
     k = comm.MORRELL_K["pebble_crusher" if settings.pebble_crusher else "no_pebble_crusher"]
@@ -136,7 +156,9 @@ def specific_energy_kwh_t(bwi_kwh_t, mia_kwh_t, settings: PlantSettings):
         mia_kwh_t, settings.f80_um, comm.MORRELL_STAGE_BOUNDARY_UM, k=k
     )
     fine = comm.bond_ball_mill_energy(
-        bwi_kwh_t, comm.MORRELL_STAGE_BOUNDARY_UM, settings.p80_um,
+        bwi_kwh_t,
+        comm.MORRELL_STAGE_BOUNDARY_UM,
+        settings.p80_um,
         mill_diameter_m=settings.ball_mill_diameter_m,
     )
     return coarse + fine
@@ -148,8 +170,11 @@ def _ensure_models(models: Mapping | None, settings: PlantSettings) -> dict:
         if response not in out:
             kwargs = {}
             if response in ("cu_recovery_frac", "au_recovery_frac"):
-                kwargs = {"time_min": settings.flotation_time_min,
-                          "kinetic": settings.kinetic_model, "n_cells": settings.n_cells}
+                kwargs = {
+                    "time_min": settings.flotation_time_min,
+                    "kinetic": settings.kinetic_model,
+                    "n_cells": settings.n_cells,
+                }
             out[response] = make_model(response, "none", **kwargs).fit(None, None)
     return out
 
@@ -169,8 +194,9 @@ def _forecast_chunk(x: Mapping, models: Mapping, s: PlantSettings) -> dict[str, 
         lo, hi = _interval(m, pred, cov, *m._bounds())
         out[response], out[f"{response}_p10"], out[f"{response}_p90"] = pred, lo, hi
     # Energy, throughput and the clay penalty.
-    penalty = thr.clay_penalty_frac(x["clay_severity_idx"], x["clay_swelling_pct"],
-                                    **s.clay_penalty)
+    penalty = thr.clay_penalty_frac(
+        x["clay_severity_idx"], x["clay_swelling_pct"], **s.clay_penalty
+    )
     out["clay_penalty_frac"] = penalty
     keep = 1.0 - penalty
     power = s.mill_power_kw * s.utilisation_frac
@@ -191,15 +217,24 @@ def _forecast_chunk(x: Mapping, models: Mapping, s: PlantSettings) -> dict[str, 
     params = cu_model.full_params() if isinstance(cu_model, KineticRecoveryModel) else None
     conc_model = models.get("conc_cu_pct")
     rough = flot.rougher_copper(
-        x["cu_pct"], x["cu_asol_pct"], x["clay_swelling_pct"], x["clay_kaolin_pct"],
-        x["white_mica_illite_pct"], x["clay_severity_idx"],
-        cu_mineral_pct=copper_minerals(x), pyrite_pct=x["pyrite_pct"],
-        time_min=s.flotation_time_min, model=s.kinetic_model, n_cells=s.n_cells, params=params,
+        x["cu_pct"],
+        x["cu_asol_pct"],
+        x["clay_swelling_pct"],
+        x["clay_kaolin_pct"],
+        x["white_mica_illite_pct"],
+        x["clay_severity_idx"],
+        cu_mineral_pct=copper_minerals(x),
+        pyrite_pct=x["pyrite_pct"],
+        time_min=s.flotation_time_min,
+        model=s.kinetic_model,
+        n_cells=s.n_cells,
+        params=params,
     )
     cu_rec = rough["cu_recovery_frac"] if params is not None else cu_model.predict(x)
     out["cu_recovery_frac"] = cu_rec
     out["cu_recovery_frac_p10"], out["cu_recovery_frac_p90"] = _interval(
-        cu_model, cu_rec, cov, 0.0, 1.0)
+        cu_model, cu_rec, cov, 0.0, 1.0
+    )
     if conc_model is None:
         out["conc_cu_pct"] = rough["conc_cu_pct"]
     elif isinstance(conc_model, ConcentrateModel):
@@ -209,17 +244,26 @@ def _forecast_chunk(x: Mapping, models: Mapping, s: PlantSettings) -> dict[str, 
     out["conc_mass_pull_frac"] = rough["mass_pull_frac"]
     au_model = models["au_recovery_frac"]
     if isinstance(au_model, KineticRecoveryModel):
-        au_rec = np.asarray(flot.au_recovery_frac(
-            x["au_gpt"], x["clay_swelling_pct"], x["clay_kaolin_pct"],
-            x["white_mica_illite_pct"], x["clay_severity_idx"], x["oxide_ratio_frac"],
-            time_min=s.flotation_time_min, model=s.kinetic_model, n_cells=s.n_cells,
-            params=au_model.full_params(),
-        ))
+        au_rec = np.asarray(
+            flot.au_recovery_frac(
+                x["au_gpt"],
+                x["clay_swelling_pct"],
+                x["clay_kaolin_pct"],
+                x["white_mica_illite_pct"],
+                x["clay_severity_idx"],
+                x["oxide_ratio_frac"],
+                time_min=s.flotation_time_min,
+                model=s.kinetic_model,
+                n_cells=s.n_cells,
+                params=au_model.full_params(),
+            )
+        )
     else:
         au_rec = au_model.predict(x)
     out["au_recovery_frac"] = au_rec
     out["au_recovery_frac_p10"], out["au_recovery_frac_p90"] = _interval(
-        au_model, au_rec, cov, 0.0, 1.0)
+        au_model, au_rec, cov, 0.0, 1.0
+    )
     # Acid.
     acid_model = models["acid_kg_t"]
     if isinstance(acid_model, AcidReactivityModel):
@@ -283,8 +327,11 @@ def forecast_columns(
 
 
 def add_forecasts(
-    table: pd.DataFrame, models: Mapping | None = None, settings: PlantSettings | None = None,
-    *, where: str = "table",
+    table: pd.DataFrame,
+    models: Mapping | None = None,
+    settings: PlantSettings | None = None,
+    *,
+    where: str = "table",
 ) -> pd.DataFrame:
     """A copy of ``table`` with the forecast columns added (replacing any of the same name)."""
     cols = forecast_columns(table, models, settings, where=where)
@@ -334,23 +381,48 @@ def domain_forecasts(
         cols[name] = np.asarray(values, dtype=float)
 
     weighted_means = [
-        c for c in ("cu_pct", "au_gpt", "cu_asol_pct", "clay_total_pct", "clay_swelling_pct",
-                    "sulfate_pct", "bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t",
-                    "specific_energy_kwh_t", "mill_energy_kwh_t", "clay_penalty_frac",
-                    "acid_kg_t", "acid_gangue_kg_t", "acid_oxide_kg_t")
+        c
+        for c in (
+            "cu_pct",
+            "au_gpt",
+            "cu_asol_pct",
+            "clay_total_pct",
+            "clay_swelling_pct",
+            "sulfate_pct",
+            "bond_bwi_kwh_t",
+            "smc_axb",
+            "smc_mia_kwh_t",
+            "specific_energy_kwh_t",
+            "mill_energy_kwh_t",
+            "clay_penalty_frac",
+            "acid_kg_t",
+            "acid_gangue_kg_t",
+            "acid_oxide_kg_t",
+        )
         if c in table.columns
     ]
     weighted_means += [
-        f"{c}_{s}" for c in ("bond_bwi_kwh_t", "smc_axb", "smc_mia_kwh_t",
-                              "specific_energy_kwh_t", "mill_energy_kwh_t", "acid_kg_t")
-        for s in ("p10", "p90") if f"{c}_{s}" in table.columns
+        f"{c}_{s}"
+        for c in (
+            "bond_bwi_kwh_t",
+            "smc_axb",
+            "smc_mia_kwh_t",
+            "specific_energy_kwh_t",
+            "mill_energy_kwh_t",
+            "acid_kg_t",
+        )
+        for s in ("p10", "p90")
+        if f"{c}_{s}" in table.columns
     ]
     for c in weighted_means:
         v = table[c].to_numpy(dtype=float)
         add(f"_num_{c}", np.where(np.isnan(v), 0.0, v * df["_w"]))
         add(f"_den_{c}", np.where(np.isnan(v), 0.0, df["_w"]))
-    hours = [c for c in ("throughput_tph", "throughput_tph_p10", "throughput_tph_p90")
-             if c in table.columns]
+    hours = [
+        c
+        for c in ("throughput_tph", "throughput_tph_p10", "throughput_tph_p90")
+        if c in table.columns
+    ]
     for c in hours:
         q = table[c].to_numpy(dtype=float)
         ok = (q > 0) & ~np.isnan(q)
@@ -370,8 +442,11 @@ def domain_forecasts(
             add(f"_rm_{col}", np.where(ok, df["_w"] * g * np.where(ok, r, 0.0), 0.0))
             add(f"_m_{col}", np.where(ok, df["_w"] * g, 0.0))
     if {"conc_cu_pct", "cu_recovery_frac", "cu_pct"} <= set(table.columns):
-        rec_metal = df["_w"] * np.nan_to_num(table["cu_pct"].to_numpy(float)) * np.nan_to_num(
-            table["cu_recovery_frac"].to_numpy(float))
+        rec_metal = (
+            df["_w"]
+            * np.nan_to_num(table["cu_pct"].to_numpy(float))
+            * np.nan_to_num(table["cu_recovery_frac"].to_numpy(float))
+        )
         c = table["conc_cu_pct"].to_numpy(dtype=float)
         ok = (c > 0) & ~np.isnan(c)
         add("_cm", np.where(ok, rec_metal, 0.0))

@@ -333,8 +333,15 @@ class KineticRecoveryModel(_ForecastModel):
     """
 
     def __init__(
-        self, metal="cu", time_min=10.0, kinetic="first_order", n_cells=6, fit_params=None,
-        noise_frac=0.03, prior_strength=1.0, calibrate=True,
+        self,
+        metal="cu",
+        time_min=10.0,
+        kinetic="first_order",
+        n_cells=6,
+        fit_params=None,
+        noise_frac=0.03,
+        prior_strength=1.0,
+        calibrate=True,
     ):
         self.metal = metal
         self.time_min = time_min
@@ -361,9 +368,7 @@ class KineticRecoveryModel(_ForecastModel):
         names = list(self.fit_params) if self.fit_params is not None else list(bounds)
         unknown = [n for n in names if n not in bounds]
         if unknown:
-            msg = (
-                f"KineticRecoveryModel: cannot fit {unknown}; valid names are {list(bounds)}"
-            )
+            msg = f"KineticRecoveryModel: cannot fit {unknown}; valid names are {list(bounds)}"
             raise InputDataError(msg)
         return names
 
@@ -371,15 +376,23 @@ class KineticRecoveryModel(_ForecastModel):
         kw = {"time_min": self.time_min, "model": self.kinetic, "n_cells": self.n_cells}
         if self.metal == "cu":
             return flot.rougher_copper(
-                _col(X, "cu_pct"), _col(X, "cu_asol_pct"),
+                _col(X, "cu_pct"),
+                _col(X, "cu_asol_pct"),
                 *(_col(X, c) for c in _CLAYS),
-                cu_mineral_pct=copper_minerals(X), pyrite_pct=_col(X, "pyrite_pct"),
-                params=dict(params), **kw,
+                cu_mineral_pct=copper_minerals(X),
+                pyrite_pct=_col(X, "pyrite_pct"),
+                params=dict(params),
+                **kw,
             )["cu_recovery_frac"]
-        return np.asarray(flot.au_recovery_frac(
-            _col(X, "au_gpt"), *(_col(X, c) for c in _CLAYS), _col(X, "oxide_ratio_frac"),
-            params=dict(params), **kw,
-        ))
+        return np.asarray(
+            flot.au_recovery_frac(
+                _col(X, "au_gpt"),
+                *(_col(X, c) for c in _CLAYS),
+                _col(X, "oxide_ratio_frac"),
+                params=dict(params),
+                **kw,
+            )
+        )
 
     def fit(self, X, y):
         """Fit the kinetic coefficients to measured recoveries ``y`` [fraction]."""
@@ -460,8 +473,14 @@ class AcidReactivityModel(_ForecastModel):
 
     response = "acid_kg_t"
 
-    def __init__(self, extraction_frac=1.0, fit_intercept=True, relative_errors=True,
-                 weight_floor_kg_t=2.0, calibrate=True):
+    def __init__(
+        self,
+        extraction_frac=1.0,
+        fit_intercept=True,
+        relative_errors=True,
+        weight_floor_kg_t=2.0,
+        calibrate=True,
+    ):
         self.extraction_frac = extraction_frac
         self.fit_intercept = fit_intercept
         self.relative_errors = relative_errors
@@ -480,8 +499,7 @@ class AcidReactivityModel(_ForecastModel):
     def _default_state(self):
         return {
             "reactivity_": {
-                m: acid_mod.ACID_REACTIONS[m].reactivity_frac
-                for m in acid_mod.GANGUE_ACID_MINERALS
+                m: acid_mod.ACID_REACTIONS[m].reactivity_frac for m in acid_mod.GANGUE_ACID_MINERALS
             },
             "extraction_": float(self.extraction_frac),
             "intercept_": 0.0,
@@ -507,16 +525,21 @@ class AcidReactivityModel(_ForecastModel):
             target = y[ok] - A[:, ~used] @ fixed[~used]
             # Leach acid scatters in proportion to its level: weight rows by 1/(default
             # prediction) so that every test counts by its relative error.
-            w = 1.0 / np.maximum(A @ fixed, self.weight_floor_kg_t) if self.relative_errors \
+            w = (
+                1.0 / np.maximum(A @ fixed, self.weight_floor_kg_t)
+                if self.relative_errors
                 else np.ones(len(target))
-            sol = lsq_linear(A[:, used] * w[:, None], target * w,
-                             bounds=(np.zeros(used.sum()), hi[used]))
+            )
+            sol = lsq_linear(
+                A[:, used] * w[:, None], target * w, bounds=(np.zeros(used.sum()), hi[used])
+            )
             theta = fixed.copy()
             theta[used] = sol.x
             names = list(acid_mod.GANGUE_ACID_MINERALS)
             state = {
-                "reactivity_": {m: float(v) for m, v in zip(names, theta[: len(names)],
-                                                            strict=True)},
+                "reactivity_": {
+                    m: float(v) for m, v in zip(names, theta[: len(names)], strict=True)
+                },
                 "extraction_": float(theta[len(names)]),
                 "intercept_": float(theta[-1]),
             }
@@ -526,11 +549,15 @@ class AcidReactivityModel(_ForecastModel):
 
     def components(self, X, state: Mapping | None = None) -> tuple[np.ndarray, np.ndarray]:
         """(gangue acid, oxide Cu acid) [kg/t] with fitted (or given) factors."""
-        s = state or {"reactivity_": self.reactivity_, "extraction_": self.extraction_,
-                      "intercept_": self.intercept_}
+        s = state or {
+            "reactivity_": self.reactivity_,
+            "extraction_": self.extraction_,
+            "intercept_": self.intercept_,
+        }
         gangue = acid_mod.gangue_acid_kg_t(acid_minerals(X), reactivity=s["reactivity_"])
-        oxide = acid_mod.oxide_cu_acid_kg_t(_col(X, "cu_asol_pct"),
-                                            extraction_frac=min(max(s["extraction_"], 0.0), 1.0))
+        oxide = acid_mod.oxide_cu_acid_kg_t(
+            _col(X, "cu_asol_pct"), extraction_frac=min(max(s["extraction_"], 0.0), 1.0)
+        )
         return gangue + s["intercept_"], oxide
 
     def predict(self, X):
@@ -544,8 +571,11 @@ class AcidReactivityModel(_ForecastModel):
         return self._clip(g + o)
 
     def _state(self):
-        return {"reactivity_": self.reactivity_, "extraction_": self.extraction_,
-                "intercept_": self.intercept_}
+        return {
+            "reactivity_": self.reactivity_,
+            "extraction_": self.extraction_,
+            "intercept_": self.intercept_,
+        }
 
     def _load_state(self, state):
         self.reactivity_ = {k: float(v) for k, v in state["reactivity_"].items()}
@@ -576,8 +606,9 @@ class ConcentrateModel(_ForecastModel):
 
     response = "conc_cu_pct"
 
-    def __init__(self, cu_params=None, time_min=10.0, kinetic="first_order", n_cells=6,
-                 calibrate=True):
+    def __init__(
+        self, cu_params=None, time_min=10.0, kinetic="first_order", n_cells=6, calibrate=True
+    ):
         self.cu_params = cu_params
         self.time_min = time_min
         self.kinetic = kinetic
@@ -587,9 +618,14 @@ class ConcentrateModel(_ForecastModel):
     def mechanistic(self, X):
         """The uncalibrated concentrate grade ĉ [% Cu]."""
         return flot.rougher_copper(
-            _col(X, "cu_pct"), _col(X, "cu_asol_pct"), *(_col(X, c) for c in _CLAYS),
-            cu_mineral_pct=copper_minerals(X), pyrite_pct=_col(X, "pyrite_pct"),
-            time_min=self.time_min, model=self.kinetic, n_cells=self.n_cells,
+            _col(X, "cu_pct"),
+            _col(X, "cu_asol_pct"),
+            *(_col(X, c) for c in _CLAYS),
+            cu_mineral_pct=copper_minerals(X),
+            pyrite_pct=_col(X, "pyrite_pct"),
+            time_min=self.time_min,
+            model=self.kinetic,
+            n_cells=self.n_cells,
             params=self.cu_params,
         )["conc_cu_pct"]
 
@@ -612,8 +648,9 @@ class ConcentrateModel(_ForecastModel):
     def adjust(self, mechanistic_pct):
         """Calibrated grade from mechanistic grades [% Cu]."""
         with np.errstate(invalid="ignore", divide="ignore"):
-            return self._clip(np.exp(self.log_scale_) * np.asarray(mechanistic_pct, float)
-                              ** self.exponent_)
+            return self._clip(
+                np.exp(self.log_scale_) * np.asarray(mechanistic_pct, float) ** self.exponent_
+            )
 
     def predict(self, X):
         """Concentrate grade [% Cu] for rows ``X``."""
@@ -652,13 +689,23 @@ def model_features(response: str) -> list[str]:
     if kind == "hardness":
         return [k for k in DEFAULT_HARDNESS_COEFFICIENTS[response] if k != "intercept"]
     if kind == "cu":
-        return ["cu_pct", "cu_asol_pct", *_CLAYS, *(f"{m}_pct" for m in COPPER_MINERALS),
-                "pyrite_pct"]
+        return [
+            "cu_pct",
+            "cu_asol_pct",
+            *_CLAYS,
+            *(f"{m}_pct" for m in COPPER_MINERALS),
+            "pyrite_pct",
+        ]
     if kind == "au":
         return ["au_gpt", *_CLAYS, "oxide_ratio_frac"]
     if kind == "conc":
-        return ["cu_pct", "cu_asol_pct", *_CLAYS, *(f"{m}_pct" for m in COPPER_MINERALS),
-                "pyrite_pct"]
+        return [
+            "cu_pct",
+            "cu_asol_pct",
+            *_CLAYS,
+            *(f"{m}_pct" for m in COPPER_MINERALS),
+            "pyrite_pct",
+        ]
     return [*(f"{m}_pct" for m in acid_mod.GANGUE_ACID_MINERALS), "cu_asol_pct"]
 
 
@@ -685,8 +732,15 @@ class MonotoneBoostingModel(_ForecastModel):
     """
 
     def __init__(
-        self, response="cu_recovery_frac", base_params=None, max_iter=150, learning_rate=0.05,
-        max_depth=3, min_samples_leaf=10, l2_regularization=1.0, random_state=0,
+        self,
+        response="cu_recovery_frac",
+        base_params=None,
+        max_iter=150,
+        learning_rate=0.05,
+        max_depth=3,
+        min_samples_leaf=10,
+        l2_regularization=1.0,
+        random_state=0,
     ):
         self.response = response
         self.base_params = base_params
@@ -712,17 +766,23 @@ class MonotoneBoostingModel(_ForecastModel):
         signs = MONOTONE_SIGNS.get(self.response, {})
         cst = [signs.get(f, 0) for f in model_features(self.response)]
         self.booster_ = HistGradientBoostingRegressor(
-            max_iter=self.max_iter, learning_rate=self.learning_rate, max_depth=self.max_depth,
-            min_samples_leaf=self.min_samples_leaf, l2_regularization=self.l2_regularization,
-            monotonic_cst=cst, early_stopping=False, random_state=self.random_state,
+            max_iter=self.max_iter,
+            learning_rate=self.learning_rate,
+            max_depth=self.max_depth,
+            min_samples_leaf=self.min_samples_leaf,
+            l2_regularization=self.l2_regularization,
+            monotonic_cst=cst,
+            early_stopping=False,
+            random_state=self.random_state,
         )
         resid = y[ok] - self.base_.predict(Xok)
         # One OpenMP thread: on a few hundred tests, thread start-up costs more than the fit.
         with threadpool_limits(limits=1, user_api="openmp"):
             self.booster_.fit(self._matrix(Xok), resid)
         self.train_ = {
-            "X": {f: np.asarray(Xok[f], dtype=float).tolist()
-                  for f in model_features(self.response)},
+            "X": {
+                f: np.asarray(Xok[f], dtype=float).tolist() for f in model_features(self.response)
+            },
             "y": y[ok].tolist(),
         }
         return self
@@ -765,8 +825,9 @@ def make_model(response: str, method: str = "parametric", *, seed: int = 0, **kw
         msg = f"unknown calibration method {method!r}; valid names are {list(CALIBRATION_METHODS)}"
         raise InputDataError(msg)
     if method == "monotone_gbm":
-        return MonotoneBoostingModel(response=response, base_params=kwargs or None,
-                                     random_state=seed)
+        return MonotoneBoostingModel(
+            response=response, base_params=kwargs or None, random_state=seed
+        )
     model = default_model(response, **kwargs)
     if method == "none":
         model.set_params(calibrate=False)
@@ -870,8 +931,13 @@ def _cross_conformal_coverage(resid, folds, coverage) -> float:
 
 MODEL_CLASSES = {
     cls.__name__: cls
-    for cls in (LinearResponseModel, KineticRecoveryModel, AcidReactivityModel,
-                ConcentrateModel, MonotoneBoostingModel)
+    for cls in (
+        LinearResponseModel,
+        KineticRecoveryModel,
+        AcidReactivityModel,
+        ConcentrateModel,
+        MonotoneBoostingModel,
+    )
 }
 
 

@@ -36,9 +36,7 @@ def _check_sizes(f80_um, p80_um, where: str) -> None:
     p = np.asarray(p80_um, dtype=float)
     bad = (p <= 0) | (f <= p)
     if np.any(bad):
-        msg = (
-            f"{where}: sizes must satisfy f80_um > p80_um > 0; got f80_um={f!r}, p80_um={p!r}"
-        )
+        msg = f"{where}: sizes must satisfy f80_um > p80_um > 0; got f80_um={f!r}, p80_um={p!r}"
         raise InputDataError(msg)
 
 

@@ -121,7 +121,7 @@ def first_order_recovery(r_inf_frac, k_per_min, time_min):
     >>> round(float(first_order_recovery(0.9, 0.5, 2.0)), 6)
     0.568909
     """
-    return r_inf_frac * (1.0 - np.exp(-k_per_min * time_min))
+    return r_inf_frac * -np.expm1(-k_per_min * time_min)  # 1 − e^(−kt), accurate at small kt
 
 
 def klimpel_recovery(r_inf_frac, k_per_min, time_min):
@@ -206,8 +206,13 @@ def kinetic_recovery(r_inf_frac, k_per_min, time_min, *, model="first_order", n_
 
 
 def clay_recovery_factor(
-    clay_swelling_pct, clay_kaolin_pct, white_mica_illite_pct, *, swelling_per_pct,
-    kaolin_per_pct, illite_per_pct,
+    clay_swelling_pct,
+    clay_kaolin_pct,
+    white_mica_illite_pct,
+    *,
+    swelling_per_pct,
+    kaolin_per_pct,
+    illite_per_pct,
 ):
     """Multiplier on R∞ for clay in the feed: exp(−(a_s S + a_k K + a_i I)), in (0, 1].
 
@@ -262,9 +267,7 @@ def copper_mineral_shares(cu_mineral_pct: Mapping[str, object] | None, n: int) -
         )
         raise InputDataError(msg)
     cu = {
-        m: np.fmax(np.asarray(v, dtype=float), 0.0) * copper_fraction(
-            COPPER_MINERAL_FORMULAS[m]
-        )
+        m: np.fmax(np.asarray(v, dtype=float), 0.0) * copper_fraction(COPPER_MINERAL_FORMULAS[m])
         for m, v in cu_mineral_pct.items()
     }
     total = sum(cu.values()) if cu else np.zeros(n)
@@ -357,28 +360,37 @@ def rougher_copper(
     )
     with np.errstate(invalid="ignore", divide="ignore"):
         head = cu / (cu + p["head_half_pct"])
-    slow = np.exp(-p["k_severity_per_idx"] * np.maximum(
-        np.asarray(clay_severity_idx, dtype=float).reshape(-1), 0.0))
+    slow = np.exp(
+        -p["k_severity_per_idx"]
+        * np.maximum(np.asarray(clay_severity_idx, dtype=float).reshape(-1), 0.0)
+    )
     shares = copper_mineral_shares(cu_mineral_pct, n)
     common = p["r_inf_scale"] * clay * head
     r_sulf = np.zeros(n)
     mineral_mass = np.zeros(n)
     recovered_mass = np.zeros(n)
+    _check_model(model, n_cells)
+    slow_t = slow * time_min  # k t = s_k k⁰_m · (slowdown · t)
     for mineral, share in shares.items():
         if not share.any():
             continue  # mineral absent from every row: contributes nothing
-        r_m = kinetic_recovery(
-            np.minimum(p["r_inf"][mineral] * common, 1.0),
-            p["k_scale"] * p["k_per_min"][mineral] * slow,
-            time_min,
-            model=model,
-            n_cells=n_cells,
-        )
+        r_inf = np.minimum(p["r_inf"][mineral] * common, 1.0)
+        if model == "first_order":  # inlined: one pass fewer per mineral on large tables
+            r_m = r_inf * -np.expm1(-(p["k_scale"] * p["k_per_min"][mineral]) * slow_t)
+        else:
+            r_m = kinetic_recovery(
+                r_inf,
+                p["k_scale"] * p["k_per_min"][mineral] * slow,
+                time_min,
+                model=model,
+                n_cells=n_cells,
+            )
         cu_m = sulf * share  # sulfide Cu carried by the mineral [%]
-        r_sulf += cu_m * r_m
-        mass = cu_m / copper_fraction(COPPER_MINERAL_FORMULAS[mineral])
-        mineral_mass += mass
-        recovered_mass += mass * r_m
+        cu_rec = cu_m * r_m  # of it recovered [%]
+        r_sulf += cu_rec
+        inv_frac = 1.0 / copper_fraction(COPPER_MINERAL_FORMULAS[mineral])
+        mineral_mass += cu_m * inv_frac
+        recovered_mass += cu_rec * inv_frac
     r_ox = float(np.clip(p["oxide_recovery_frac"], 0.0, 1.0)) * clay * head
     with np.errstate(invalid="ignore", divide="ignore"):
         recovery = np.where(cu > 0, (r_sulf + asol * r_ox) / cu, np.nan)
@@ -399,8 +411,13 @@ def rougher_copper(
 
 
 def cu_recovery_frac(
-    cu_pct, cu_asol_pct, clay_swelling_pct, clay_kaolin_pct, white_mica_illite_pct,
-    clay_severity_idx, **kwargs,
+    cu_pct,
+    cu_asol_pct,
+    clay_swelling_pct,
+    clay_kaolin_pct,
+    white_mica_illite_pct,
+    clay_severity_idx,
+    **kwargs,
 ):
     """Rougher Cu recovery [fraction] (see :func:`rougher_copper` for the model and keywords).
 
@@ -412,8 +429,13 @@ def cu_recovery_frac(
     0.5391
     """
     out = rougher_copper(
-        cu_pct, cu_asol_pct, clay_swelling_pct, clay_kaolin_pct, white_mica_illite_pct,
-        clay_severity_idx, **kwargs,
+        cu_pct,
+        cu_asol_pct,
+        clay_swelling_pct,
+        clay_kaolin_pct,
+        white_mica_illite_pct,
+        clay_severity_idx,
+        **kwargs,
     )["cu_recovery_frac"]
     return _like(cu_pct, out)
 
@@ -466,8 +488,11 @@ def au_recovery_frac(
     p = {**DEFAULT_AU_FLOTATION, **(params or {})}
     au = np.maximum(np.asarray(au_gpt, dtype=float), 0.0)
     clay = clay_recovery_factor(
-        clay_swelling_pct, clay_kaolin_pct, white_mica_illite_pct,
-        swelling_per_pct=p["swelling_per_pct"], kaolin_per_pct=p["kaolin_per_pct"],
+        clay_swelling_pct,
+        clay_kaolin_pct,
+        white_mica_illite_pct,
+        swelling_per_pct=p["swelling_per_pct"],
+        kaolin_per_pct=p["kaolin_per_pct"],
         illite_per_pct=p["illite_per_pct"],
     )
     oxide = np.fmin(np.fmax(np.asarray(oxide_ratio_frac, dtype=float), 0.0), 1.0)
@@ -475,10 +500,14 @@ def au_recovery_frac(
         head = au / (au + p["head_half_gpt"])
     r_inf = np.clip(
         p["r_inf_scale"] * p["r_inf"] * clay * (1.0 - p["oxide_loss_per_frac"] * oxide) * head,
-        0.0, 1.0,
+        0.0,
+        1.0,
     )
-    k = p["k_scale"] * p["k_per_min"] * np.exp(
-        -p["k_severity_per_idx"] * np.maximum(clay_severity_idx, 0.0))
+    k = (
+        p["k_scale"]
+        * p["k_per_min"]
+        * np.exp(-p["k_severity_per_idx"] * np.maximum(clay_severity_idx, 0.0))
+    )
     out = kinetic_recovery(np.asarray(r_inf), np.asarray(k), time_min, model=model, n_cells=n_cells)
     return _like(au_gpt, np.clip(out, 0.0, 1.0))
 

@@ -55,7 +55,9 @@ DEFAULT_HARDNESS_COEFFICIENTS: dict[str, dict[str, float]] = {
 
 #: Link of each hardness model: "identity" (linear in the response) or "log" (linear in ln).
 HARDNESS_LINKS: dict[str, str] = {
-    "bond_bwi_kwh_t": "identity", "smc_axb": "log", "smc_mia_kwh_t": "identity",
+    "bond_bwi_kwh_t": "identity",
+    "smc_axb": "log",
+    "smc_mia_kwh_t": "identity",
 }
 
 #: Physical lower bounds applied to linear hardness predictions (a linear model can go negative).

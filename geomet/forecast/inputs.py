@@ -23,8 +23,13 @@ COPPER_MINERALS = tuple(COPPER_MINERAL_FORMULAS)
 
 #: Columns every forecast needs (group and index columns of docs/contracts.md).
 REQUIRED_COLUMNS = (
-    "cu_pct", "au_gpt", "clay_swelling_pct", "clay_kaolin_pct", "white_mica_illite_pct",
-    "clay_severity_idx", "clay_total_pct",
+    "cu_pct",
+    "au_gpt",
+    "clay_swelling_pct",
+    "clay_kaolin_pct",
+    "white_mica_illite_pct",
+    "clay_severity_idx",
+    "clay_total_pct",
 )
 
 HARDNESS_FEATURES = tuple(

@@ -46,33 +46,35 @@ def synthetic_mineralogy(n: int, *, seed: int = 0, n_holes: int = 20) -> pd.Data
     oxide = rng.beta(0.6, 4.0, n)
     cpy_share = rng.uniform(0.4, 1.0, n)
     sulf_cu = cu * (1.0 - oxide)
-    df = pd.DataFrame({
-        "hole_id": [f"VT-{h + 1:03d}" for h in hole],
-        "from_m": pos,
-        "to_m": pos + 2.0,
-        "length_m": np.full(n, 2.0),
-        "cu_pct": cu,
-        "cu_asol_pct": cu * oxide,
-        "au_gpt": rng.lognormal(np.log(0.3), 0.6, n),
-        "clay_swelling_pct": swelling,
-        "clay_kaolin_pct": kaolin,
-        "white_mica_illite_pct": illite,
-        "clay_total_pct": swelling + kaolin + illite,
-        "clay_severity_idx": 3.0 * swelling + 1.0 * kaolin + 0.3 * illite,
-        "advanced_argillic_pct": rng.gamma(0.5, 2.0, n),
-        "sulfate_pct": rng.gamma(0.7, 1.5, n),
-        "carbonate_pct": rng.gamma(0.7, 1.5, n),
-        "femg_silicate_pct": rng.gamma(2.0, 3.0, n),
-        "featureless_pct": rng.uniform(20.0, 60.0, n),
-        "iron_oxide_pct": rng.gamma(0.8, 1.5, n),
-        "oxide_ratio_frac": oxide,
-        "norm_chalcopyrite_pct": sulf_cu * cpy_share / 0.3463,
-        "norm_bornite_pct": sulf_cu * (1 - cpy_share) * 0.5 / 0.6331,
-        "norm_chalcocite_pct": sulf_cu * (1 - cpy_share) * 0.5 / 0.7985,
-        "norm_covellite_pct": np.zeros(n),
-        "norm_pyrite_pct": rng.gamma(2.0, 1.0, n),
-        "domain": rng.choice(["potassic", "phyllic", "argillic"], n),
-    })
+    df = pd.DataFrame(
+        {
+            "hole_id": [f"VT-{h + 1:03d}" for h in hole],
+            "from_m": pos,
+            "to_m": pos + 2.0,
+            "length_m": np.full(n, 2.0),
+            "cu_pct": cu,
+            "cu_asol_pct": cu * oxide,
+            "au_gpt": rng.lognormal(np.log(0.3), 0.6, n),
+            "clay_swelling_pct": swelling,
+            "clay_kaolin_pct": kaolin,
+            "white_mica_illite_pct": illite,
+            "clay_total_pct": swelling + kaolin + illite,
+            "clay_severity_idx": 3.0 * swelling + 1.0 * kaolin + 0.3 * illite,
+            "advanced_argillic_pct": rng.gamma(0.5, 2.0, n),
+            "sulfate_pct": rng.gamma(0.7, 1.5, n),
+            "carbonate_pct": rng.gamma(0.7, 1.5, n),
+            "femg_silicate_pct": rng.gamma(2.0, 3.0, n),
+            "featureless_pct": rng.uniform(20.0, 60.0, n),
+            "iron_oxide_pct": rng.gamma(0.8, 1.5, n),
+            "oxide_ratio_frac": oxide,
+            "norm_chalcopyrite_pct": sulf_cu * cpy_share / 0.3463,
+            "norm_bornite_pct": sulf_cu * (1 - cpy_share) * 0.5 / 0.6331,
+            "norm_chalcocite_pct": sulf_cu * (1 - cpy_share) * 0.5 / 0.7985,
+            "norm_covellite_pct": np.zeros(n),
+            "norm_pyrite_pct": rng.gamma(2.0, 1.0, n),
+            "domain": rng.choice(["potassic", "phyllic", "argillic"], n),
+        }
+    )
     for mineral in GANGUE_ACID_MINERALS:
         df[f"{mineral}_pct"] = rng.gamma(0.8, 1.0, n)
     return df

@@ -156,7 +156,8 @@ def reduce_flotation_tests(
         calc = np.asarray(two_product_recovery_frac(f, c, t), dtype=float)
         rep_col = f"rougher_{metal}_recovery_pct"
         reported = (
-            out[rep_col].to_numpy(dtype=float) / 100.0 if rep_col in out.columns
+            out[rep_col].to_numpy(dtype=float) / 100.0
+            if rep_col in out.columns
             else np.full(n, np.nan)
         )
         out[f"{metal}_recovery_calc_frac"] = calc

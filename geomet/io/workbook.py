@@ -303,7 +303,9 @@ def _styled(
 
 
 # --- the workbook --------------------------------------------------------------------------------
-def write_workbook(path: str | Path, result, *, title: str | None = None) -> Path:
+def write_workbook(
+    path: str | Path, result, *, title: str | None = None, sheets: Iterable[str] | None = None
+) -> Path:
     """Write the results workbook of a run.
 
     Parameters
@@ -315,6 +317,8 @@ def write_workbook(path: str | Path, result, *, title: str | None = None) -> Pat
         ``plots``, ``notes``, ``steps``, ``warnings`` and ``provenance``).
     title
         Workbook title (default: the recipe's ``run.title`` from the provenance).
+    sheets
+        Produced tables to show as sheets (default: all of them, in run order).
 
     Returns
     -------
@@ -326,7 +330,10 @@ def write_workbook(path: str | Path, result, *, title: str | None = None) -> Pat
     params = provenance.get("parameters", {})
     title = title or params.get("run", {}).get("title") or "geomet run"
     produced: Mapping[str, str] = result.produced
-    tables = {name: result.tables[name] for name in produced if name in result.tables}
+    chosen = set(produced if sheets is None else sheets)
+    tables = {
+        name: result.tables[name] for name in produced if name in result.tables and name in chosen
+    }
     names = unique_sheet_titles(tables)
     plots = list(getattr(result, "plots", []))
     plots = [p for p in plots if Path(p.path).is_file()]

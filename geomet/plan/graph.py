@@ -283,8 +283,12 @@ def _blend_route_graph(
     stock_members: dict[str, list[dict]] = {}
     groups = {str(k): str(v) for k, v in (stockpile_groups or {}).items()}
 
-    def group_of(domain) -> str:
-        return groups.get(str(domain), str(domain))
+    def group_of(rec: dict) -> str:
+        # Segregate oxide from sulfide ore of one domain when parcels carry an ore type, so a
+        # stockpile never averages leach feed into mill feed.
+        name = groups.get(str(rec["domain"]), str(rec["domain"]))
+        ore_type = rec.get("ore_type")
+        return f"{name} / {ore_type}" if isinstance(ore_type, str) and ore_type else name
 
     unknown = sorted(set(groups) - {str(d) for d in parcels["domain"].unique()})
     if unknown:
@@ -303,12 +307,12 @@ def _blend_route_graph(
         if waste_max_cu_pct is None or rec["cu_pct"] <= waste_max_cu_pct:
             edges.append({"from": node, "to": WASTE})
         if stockpiles and rec["cu_pct"] >= stockpile_min_cu_pct:
-            stock_members.setdefault(group_of(rec["domain"]), []).append(rec)
+            stock_members.setdefault(group_of(rec), []).append(rec)
 
     if stockpiles:
         by_domain: dict[str, list[dict]] = {}
         for rec in records:
-            by_domain.setdefault(group_of(rec["domain"]), []).append(rec)
+            by_domain.setdefault(group_of(rec), []).append(rec)
         unknown = sorted(set(opening) - set(by_domain))
         if unknown:
             message = (

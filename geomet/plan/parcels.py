@@ -33,6 +33,39 @@ PARCEL_ATTRIBUTES: dict[str, str] = {
 DEFAULT_GROUP_BY = ("period", "phase", "domain")
 
 
+def ore_type_from_oxide_ratio(oxide_ratio_frac, *, oxide_min_frac: float = 0.5):
+    """Classify ore as ``"oxide"`` or ``"sulfide"`` by its oxide ratio.
+
+    Parameters
+    ----------
+    oxide_ratio_frac : array_like or Series
+        Acid-soluble Cu / total Cu [fraction]; NaN counts as sulfide.
+    oxide_min_frac : float
+        Oxide ratio at or above which ore is oxide [fraction] (the leach routing rule).
+
+    Returns
+    -------
+    ndarray or Series of str
+        Same shape (and index, for a Series) as the input.
+
+    Notes
+    -----
+    Grouping parcels by ore type as well as domain keeps oxide ore, which a domain built from
+    silicate and clay mineralogy may mix with sulfide ore, eligible for the leach pad
+    (common practice: oxide / sulfide ore types by acid-soluble to total copper).
+
+    Examples
+    --------
+    >>> ore_type_from_oxide_ratio([0.1, 0.5, 0.9, float("nan")]).tolist()
+    ['sulfide', 'oxide', 'oxide', 'sulfide']
+    """
+    values = np.asarray(oxide_ratio_frac, dtype=float)
+    kinds = np.where(values >= oxide_min_frac, "oxide", "sulfide")
+    if isinstance(oxide_ratio_frac, pd.Series):
+        return pd.Series(kinds, index=oxide_ratio_frac.index, name="ore_type")
+    return kinds
+
+
 def weighted_mean(values: np.ndarray, weights: np.ndarray) -> float:
     """Return Σ w v / Σ w over the entries where v is known (NaN when no weight remains).
 

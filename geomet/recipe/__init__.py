@@ -1,6 +1,6 @@
 """Recipes: TOML files of typed, validated run options (a recipe never executes code)."""
 
-from geomet.recipe.explain import OptionDoc, SectionDoc, explain, section_docs
+from geomet.recipe.explain import OptionDoc, SectionDoc, explain, section_docs, template
 from geomet.recipe.loader import (
     Recipe,
     RecipeProblem,
@@ -22,5 +22,6 @@ __all__ = [
     "load_recipe",
     "parse_recipe",
     "section_docs",
+    "template",
     "validate_step_options",
 ]

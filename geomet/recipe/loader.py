@@ -204,6 +204,18 @@ def parse_recipe(
                 )
             )
 
+    if run is not None and run.sheets:
+        produced = [t for name in asked if name in steps for t in steps[name].produces]
+        for table in run.sheets:
+            if table not in produced:
+                problems.append(
+                    RecipeProblem(
+                        "run.sheets",
+                        f"table {table!r} is not produced by the steps in run.steps"
+                        f"{suggest(table, produced)} (they produce: {', '.join(produced)})",
+                    )
+                )
+
     inputs = _validate_inputs(data.get("inputs", {}), base_dir, steps, problems)
 
     options: dict[str, BaseModel] = {}

@@ -58,6 +58,13 @@ class RunSection(_Section):
         "geomet_results.xlsx",
         description="File name of the results workbook inside the output folder.",
     )
+    sheets: list[str] = Field(
+        default_factory=list,
+        description=(
+            "Tables to show as workbook sheets, in run order (default: every table the steps "
+            "produce). Every produced table is still copied to <output>/tables/."
+        ),
+    )
 
     @field_validator("workbook")
     @classmethod

@@ -585,7 +585,7 @@ def run_recipe(
         result.provenance["finished_utc"] = _now()
         write_json(result.provenance, stage / "provenance.json")
         started = time.perf_counter()
-        write_workbook(stage / recipe.run.workbook, result)
+        write_workbook(stage / recipe.run.workbook, result, sheets=recipe.run.sheets or None)
         log.info(
             "wrote the workbook %s in %.1f s", recipe.run.workbook, time.perf_counter() - started
         )

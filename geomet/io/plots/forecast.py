@@ -19,7 +19,14 @@ __all__ = ["flagged_tonnes_figure", "calibration_figure", "FLAG_COLOURS"]
 
 # geomet's own flag palette, chosen for this project (one hue per flag, in rule order).
 FLAG_COLOURS = (
-    "#a0522d", "#6b8e23", "#4682b4", "#b8860b", "#8b3a62", "#2e8b57", "#696969", "#cd853f",
+    "#a0522d",
+    "#6b8e23",
+    "#4682b4",
+    "#b8860b",
+    "#8b3a62",
+    "#2e8b57",
+    "#696969",
+    "#cd853f",
 )
 
 
@@ -40,8 +47,14 @@ def flagged_tonnes_figure(lookahead: pd.DataFrame, *, current_period: int | None
     """
     fig, ax = plt.subplots(figsize=(9.0, 4.2))
     if lookahead.empty:
-        ax.text(0.5, 0.5, "No scheduled blocks to flag", ha="center", va="center",
-                transform=ax.transAxes)
+        ax.text(
+            0.5,
+            0.5,
+            "No scheduled blocks to flag",
+            ha="center",
+            va="center",
+            transform=ax.transAxes,
+        )
         ax.set_axis_off()
         return fig
     periods = np.sort(lookahead["period"].unique())
@@ -52,10 +65,22 @@ def flagged_tonnes_figure(lookahead: pd.DataFrame, *, current_period: int | None
         colour = FLAG_COLOURS[i % len(FLAG_COLOURS)]
         sub = lookahead[lookahead["flag"] == flag]
         for level, alpha, label in (("watch", 0.35, None), ("alert", 1.0, flag)):
-            t = (sub[sub["level"] == level].set_index("period")["flagged_t"]
-                 .reindex(periods).fillna(0.0).to_numpy())
-            ax.bar(x - 0.4 + width * (i + 0.5), t / 1e3, width=width, color=colour,
-                   alpha=alpha, label=label, edgecolor="none")
+            t = (
+                sub[sub["level"] == level]
+                .set_index("period")["flagged_t"]
+                .reindex(periods)
+                .fillna(0.0)
+                .to_numpy()
+            )
+            ax.bar(
+                x - 0.4 + width * (i + 0.5),
+                t / 1e3,
+                width=width,
+                color=colour,
+                alpha=alpha,
+                label=label,
+                edgecolor="none",
+            )
     ax.set_xticks(x, [str(p) for p in periods])
     ax.set_xlabel("Schedule period")
     ax.set_ylabel("Flagged ore [kt]")
@@ -63,7 +88,8 @@ def flagged_tonnes_figure(lookahead: pd.DataFrame, *, current_period: int | None
     if current_period is not None and current_period in set(periods):
         pos = int(np.flatnonzero(periods == current_period)[0])
         ax.axvline(pos - 0.5, color="#333333", lw=1.0, ls="--")
-    ax.legend(ncol=min(len(flags), 4), fontsize=8, frameon=False)
+    ax.legend(ncol=min(len(flags), 7), fontsize=8, frameon=False, loc="upper center",
+              bbox_to_anchor=(0.5, -0.2))
     ax.spines[["top", "right"]].set_visible(False)
     fig.tight_layout()
     return fig
@@ -98,7 +124,7 @@ def calibration_figure(pairs: Mapping[str, tuple[np.ndarray, np.ndarray, np.ndar
         ax.set_xlabel("measured", fontsize=8)
         ax.set_ylabel("predicted", fontsize=8)
         ax.legend(fontsize=7, frameon=False)
-    for ax in list(axes.flat)[len(pairs):]:
+    for ax in list(axes.flat)[len(pairs) :]:
         ax.set_axis_off()
     fig.tight_layout()
     return fig

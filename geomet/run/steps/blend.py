@@ -23,7 +23,7 @@ from geomet.plan.diagnose import DIAGNOSIS_COLUMNS
 from geomet.plan.economics import LB_PER_T, Economics
 from geomet.plan.graph import blend_route_graph
 from geomet.plan.limits import period_limits
-from geomet.plan.parcels import parcels_from_blocks
+from geomet.plan.parcels import ore_type_from_oxide_ratio, parcels_from_blocks
 from geomet.plan.plan import SCENARIO_COLUMNS, scenario_summary, solve_blend
 from geomet.plan.solve import SolveOptions
 from geomet.run.registry import StepContext, StepOptions, register_step
@@ -204,8 +204,10 @@ class BlendOptions(StepOptions):
     """Options of the ``blend`` step (recipe section ``[blend]``)."""
 
     group_by: list[str] = Field(
-        default_factory=lambda: ["period", "phase", "domain"],
-        description="Block columns that define an ore parcel (period is required).",
+        default_factory=lambda: ["period", "phase", "domain", "ore_type"],
+        description="Block columns that define an ore parcel (period is required). ore_type is "
+        "oxide or sulfide by the leach routing rule (leach.route_min_oxide_ratio_frac); with it, "
+        "stockpiles are segregated by domain and ore type.",
     )
     mining: Literal["fixed", "flexible"] = Field(
         "fixed",
@@ -365,6 +367,13 @@ def blend_step(ctx: StepContext, options: BlendOptions) -> dict[str, pd.DataFram
     """Schedule which domains feed the mill and the leach pad when, within plant limits."""
     blocks = ctx.tables["block_forecasts"]
     _check_columns(blocks, options)
+    if "ore_type" in options.group_by and "ore_type" not in blocks.columns:
+        if "oxide_ratio_frac" in blocks.columns:
+            ore_type = ore_type_from_oxide_ratio(
+                blocks["oxide_ratio_frac"], oxide_min_frac=options.leach.route_min_oxide_ratio_frac
+            )
+            blocks = blocks.copy()  # also de-fragments the many-column forecast table
+            blocks["ore_type"] = ore_type
     parcels = parcels_from_blocks(blocks, group_by=options.group_by)
     plant_limits = ctx.tables["plant_limits"]
 

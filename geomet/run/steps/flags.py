@@ -18,30 +18,40 @@ class ThresholdOptions(StepOptions):
     """One flag's thresholds (``[flags.thresholds.<flag>]``). Unset fields keep the default of
     a built-in flag; a new flag needs ``column``, ``watch`` and ``alert``."""
 
-    column: str | None = Field(None, description="Block column compared (default flags: "
-                               + ", ".join(f"{r.flag}={r.column}" for r in DEFAULT_FLAG_RULES)
-                               + ").")
+    column: str | None = Field(
+        None,
+        description="Block column compared (default flags: "
+        + ", ".join(f"{r.flag}={r.column}" for r in DEFAULT_FLAG_RULES)
+        + ").",
+    )
     watch: float | None = Field(None, description="Watch threshold, in the column's unit.")
     alert: float | None = Field(None, description="Alert threshold (more severe).")
     direction: Literal["above", "below"] | None = Field(
-        None, description="'above': values at or over the thresholds flag; 'below': at or "
-        "under.")
+        None, description="'above': values at or over the thresholds flag; 'below': at or under."
+    )
     description: str | None = Field(None, description="Plain-words meaning.")
 
 
 class FlagsOptions(StepOptions):
     """Options of the ``flags`` step (recipe section ``[flags]``)."""
 
-    current_period: int = Field(1, ge=1, description="Schedule period being mined now; "
-                                "periods_ahead counts from it and earlier periods are left out.")
-    horizon_periods: int | None = Field(None, ge=0, description="Look this many periods ahead "
-                                        "(empty: the whole schedule).")
+    current_period: int = Field(
+        1,
+        ge=1,
+        description="Schedule period being mined now; "
+        "periods_ahead counts from it and earlier periods are left out.",
+    )
+    horizon_periods: int | None = Field(
+        None, ge=0, description="Look this many periods ahead (empty: the whole schedule)."
+    )
     thresholds: dict[str, ThresholdOptions] = Field(
         default_factory=dict,
         description="Per-flag overrides of the default thresholds (assumptions, common "
-        "practice): " + "; ".join(
+        "practice): "
+        + "; ".join(
             f"{r.flag} {r.column} {r.direction} watch {r.watch:g} alert {r.alert:g}"
-            for r in DEFAULT_FLAG_RULES),
+            for r in DEFAULT_FLAG_RULES
+        ),
     )
     disabled: list[str] = Field(default_factory=list, description="Flags to leave out.")
     max_domains: int = Field(5, ge=1, description="Domains listed per look-ahead row.")
@@ -53,8 +63,10 @@ def build_rules(options: FlagsOptions) -> list[FlagRule]:
 
     unknown = sorted(set(options.disabled) - set(_DEFAULTS) - set(options.thresholds))
     if unknown:
-        msg = (f"[flags] disabled names unknown flags {unknown}; known flags are "
-               f"{sorted(set(_DEFAULTS) | set(options.thresholds))}")
+        msg = (
+            f"[flags] disabled names unknown flags {unknown}; known flags are "
+            f"{sorted(set(_DEFAULTS) | set(options.thresholds))}"
+        )
         raise RecipeError(msg)
     rules = []
     names = list(_DEFAULTS) + [n for n in options.thresholds if n not in _DEFAULTS]
@@ -103,27 +115,40 @@ def flags_step(ctx: StepContext, options: FlagsOptions) -> dict[str, pd.DataFram
     have = [r for r in rules if r.column in blocks.columns]
     lack = [r for r in rules if r.column not in blocks.columns]
     if lack:
-        ctx.note("flags: block_forecasts lacks " + ", ".join(
-            f"{r.column} (flag {r.flag})" for r in lack) + "; those flags are skipped.")
+        ctx.note(
+            "flags: block_forecasts lacks "
+            + ", ".join(f"{r.column} (flag {r.flag})" for r in lack)
+            + "; those flags are skipped."
+        )
     flagged = flag_blocks(blocks, have)
     if "period" not in blocks.columns or "tonnes_t" not in blocks.columns:
         ctx.note("flags: blocks carry no schedule period or tonnes; no look-ahead table.")
-        look = lookahead_table(pd.DataFrame({"period": [], "tonnes_t": []}), [],
-                               current_period=options.current_period)
+        look = lookahead_table(
+            pd.DataFrame({"period": [], "tonnes_t": []}), [], current_period=options.current_period
+        )
     else:
-        look = lookahead_table(blocks, have, current_period=options.current_period,
-                               horizon_periods=options.horizon_periods,
-                               max_domains=options.max_domains)
+        look = lookahead_table(
+            blocks,
+            have,
+            current_period=options.current_period,
+            horizon_periods=options.horizon_periods,
+            max_domains=options.max_domains,
+        )
     alerts = look[(look["level"] == "alert") & (look["flagged_t"] > 0)]
     if len(alerts):
         first = alerts.sort_values("period").groupby("flag").first()
         for flag, row in first.iterrows():
-            ctx.note(f"flags: {flag} alert first in period {row['period']} "
-                     f"({row['periods_ahead']} periods ahead): {row['flagged_t']:,.0f} t, "
-                     f"{row['flagged_share_frac']:.0%} of that period's ore.")
+            ctx.note(
+                f"flags: {flag} alert first in period {row['period']} "
+                f"({row['periods_ahead']} periods ahead): {row['flagged_t']:,.0f} t, "
+                f"{row['flagged_share_frac']:.0%} of that period's ore."
+            )
     else:
         ctx.note("flags: no scheduled ore over an alert threshold.")
-    ctx.add_plot("flagged_tonnes_by_period",
-                 flagged_tonnes_figure(look, current_period=options.current_period),
-                 "Ore over flag thresholds by schedule period.", table="lookahead")
+    ctx.add_plot(
+        "flagged_tonnes_by_period",
+        flagged_tonnes_figure(look, current_period=options.current_period),
+        "Ore over flag thresholds by schedule period.",
+        table="lookahead",
+    )
     return {"lookahead": look, "flagged_blocks": flagged}
