@@ -251,3 +251,15 @@ def test_reference_value_matches_hand_figure():
     node = {"cu_pct": 1.0, "cu_recovery_frac": 0.9, "au_gpt": 0.0, "au_recovery_frac": 0.0}
     assert reference_value_usd_t(node, "mill", e) == pytest.approx(80.0, rel=1e-12)
     assert float(mill_value_usd_t(1.0, 0.0, 0.9, 0.0, e)) == pytest.approx(80.0, rel=1e-12)
+
+
+def test_ore_type_splits_at_the_leach_rule_for_arrays_and_series():
+    import pandas as pd
+
+    from geomet.plan.parcels import ore_type_from_oxide_ratio
+
+    # The rule is inclusive at the threshold; NaN (no acid-soluble assay) counts as sulfide.
+    arr = ore_type_from_oxide_ratio(np.array([0.2, 0.5, np.nan]), oxide_min_frac=0.5)
+    assert arr.tolist() == ["sulfide", "oxide", "sulfide"]
+    ser = ore_type_from_oxide_ratio(pd.Series([0.7, 0.1], index=[10, 11]), oxide_min_frac=0.6)
+    assert ser.tolist() == ["oxide", "sulfide"] and ser.index.tolist() == [10, 11]

@@ -173,8 +173,9 @@ def check_output_folder(final: str | Path, protected: Iterable[str | Path] = ())
         item = Path(item).resolve()
         if final == item or final in item.parents:
             message = (
-                f"output folder {final} contains the input {item.name}; a run replaces its "
-                f"output folder, so choose a run.output outside the input folders"
+                f"output folder {final} contains {item.name}, which the run reads; a run "
+                f"replaces its whole output folder, so choose a run.output (or --out) that holds "
+                f"no input file and not the recipe"
             )
             raise RecipeError(message)
     if final.is_dir() and any(final.iterdir()) and not (final / OUTPUT_MARKER).is_file():

@@ -20,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from geomet.plan.highs import quiet_highs
 from geomet.plan.data import BlendData
 from geomet.plan.limits import LIMITS
 from geomet.plan.model import RowInfo, build_blend_model
@@ -152,7 +153,7 @@ def iis_diagnosis(data: BlendData) -> pd.DataFrame:
     cm = compile_or_infeasible(bm)
     if cm is None:
         return _empty_minimum_rows(bm)
-    h = highspy.Highs()
+    h = quiet_highs()
     h.setOptionValue("output_flag", False)
     A = cm.A
     h.passModel(

@@ -23,6 +23,7 @@ from pyomo.common.errors import InfeasibleConstraintException
 from pyomo.core.base.objective import ObjectiveSense
 from pyomo.repn.plugins.standard_form import LinearStandardFormCompiler
 
+from geomet.plan.highs import quiet_highs
 from geomet.errors import SolverError
 from geomet.plan.model import BlendModel
 
@@ -322,7 +323,7 @@ def _row_ranging(h) -> tuple[np.ndarray, np.ndarray] | None:
 def _highs(cm: CompiledModel, integrality, col_lower, col_upper, options: SolveOptions):
     import highspy
 
-    h = highspy.Highs()
+    h = quiet_highs()
     h.setOptionValue("output_flag", False)
     A = cm.A
     h.passModel(

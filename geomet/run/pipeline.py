@@ -499,10 +499,14 @@ def run_loaded_recipe(
 
 def _options_with(recipe: Recipe, names: list[str], overrides, registry) -> dict[str, BaseModel]:
     given: dict[str, Any] = {}
+    overrides = overrides or {}
     for name in names:
         current = recipe.options.get(name)
+        if name not in overrides and current is not None:
+            given[name] = current  # validated already: used as it is
+            continue
         values = current.model_dump() if current is not None else {}
-        values.update((overrides or {}).get(name, {}))
+        values.update(overrides.get(name, {}))
         given[name] = values
     return validate_step_options(given, names, registry=registry)
 

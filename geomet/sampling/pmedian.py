@@ -17,6 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from geomet.plan.highs import quiet_highs
 from geomet.errors import InputDataError, SolverError
 
 _SEP_TOL_M = 1e-9
@@ -462,7 +463,7 @@ def solve_pmedian_milp(
         col_of = {id(v): k for k, v in enumerate(form.columns)}
         x_cols = np.array([col_of[id(model.x[j])] for j in model.J])
 
-        highs = highspy.Highs()
+        highs = quiet_highs()
         highs.setOptionValue("output_flag", False)
         highs.setOptionValue("time_limit", float(time_limit_s))
         highs.setOptionValue("mip_rel_gap", float(rel_gap))
