@@ -88,7 +88,10 @@ def build_parser() -> argparse.ArgumentParser:
             "Exit status 1 when there are errors, 0 when there are none (warnings allowed)."
         ),
         formatter_class=argparse.RawDescriptionHelpFormatter,
-        epilog="example:\n  geomet check recipes/demo.toml",
+        epilog=(
+            "examples:\n  geomet check recipes/demo.toml\n"
+            "  geomet check recipes/demo.toml --errors-only"
+        ),
     )
     check.add_argument("recipe", type=Path, help="recipe file (TOML)")
     check.add_argument(
@@ -97,6 +100,9 @@ def build_parser() -> argparse.ArgumentParser:
         default=50,
         metavar="N",
         help="problems shown per file (default 50; all are counted)",
+    )
+    check.add_argument(
+        "--errors-only", action="store_true", help="list errors only (warnings are still counted)"
     )
     check.set_defaults(handler=_cmd_check)
 
@@ -229,13 +235,18 @@ def _cmd_check(args) -> int:
     recipe = load_recipe(args.recipe)
     result = run_loaded_recipe(recipe, steps=["check"], overrides={"check": {"on_error": "warn"}})
     report = result.tables.get("validation_report", pd.DataFrame())
-    text, errors = format_report(report, max_lines=args.max_lines)
+    text, errors = format_report(report, max_lines=args.max_lines, errors_only=args.errors_only)
     print(text)
     return EXIT_DATA_ERRORS if errors else EXIT_OK
 
 
-def format_report(report: pd.DataFrame, *, max_lines: int = 50) -> tuple[str, int]:
-    """The validation report as text grouped by file, and the number of errors in it."""
+def format_report(
+    report: pd.DataFrame, *, max_lines: int = 50, errors_only: bool = False
+) -> tuple[str, int]:
+    """The validation report as text grouped by file, and the number of errors in it.
+
+    With ``errors_only`` the warnings are counted but not listed.
+    """
     if report is None or report.empty:
         return "No problems found.", 0
     frame = report.copy()
@@ -265,12 +276,14 @@ def format_report(report: pd.DataFrame, *, max_lines: int = 50) -> tuple[str, in
         ordered = group.assign(_sev=(group["severity"] != "error").astype(int)).sort_values(
             ["_sev", "line"], kind="stable", na_position="first"
         )
+        if errors_only:
+            ordered = ordered[ordered["severity"] == "error"]
         for _, row in ordered.head(max_lines).iterrows():
             line = row["line"]
             at = f"line {int(line)}" if pd.notna(line) else "file"
             lines.append(f"  {at:>11}  {row['severity']:<7}  {row['message']}")
-        if len(group) > max_lines:
-            lines.append(f"  ... and {len(group) - max_lines} more in this file")
+        if len(ordered) > max_lines:
+            lines.append(f"  ... and {len(ordered) - max_lines} more in this file")
     lines.append("")
     lines.append(
         f"{_count(errors, 'error')}, {_count(warnings_, 'warning')} in "

@@ -79,14 +79,17 @@ def unit_of(name: str) -> str:
     --------
     >>> unit_of("cu_pct"), unit_of("energy_kwh_t"), unit_of("hole_id"), unit_of("au_gpt_p90")
     ('%', 'kWh/t', '', 'g/t')
+    >>> unit_of("cu_pct_min"), unit_of("flotation_time_min")
+    ('%', 'min')
     """
-    for candidate in (name, base_column(name)):
-        if candidate in COLUMNS:
-            return COLUMNS[candidate].unit
-        unit = _suffix_unit(candidate)
-        if unit:
-            return unit
-    return ""
+    if name in COLUMNS:
+        return COLUMNS[name].unit
+    base = base_column(name)
+    # A statistic suffix counts only when what it follows has a unit: cu_pct_min is in %, but
+    # flotation_time_min is in minutes.
+    if base != name and (base in COLUMNS or _suffix_unit(base)):
+        return COLUMNS[base].unit if base in COLUMNS else _suffix_unit(base)
+    return _suffix_unit(name)
 
 
 # Packages that add many derived columns describe them beside the code that computes them; the

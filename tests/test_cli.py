@@ -160,6 +160,10 @@ def test_format_report_groups_and_counts():
     assert "scan: 1 error, 0 warnings" in text
     assert text.endswith("2 errors, 1 warning in 2 files.")
     assert format_report(pd.DataFrame(), max_lines=5) == ("No problems found.", 0)
+    text, errors = format_report(report, errors_only=True)
+    assert errors == 2
+    assert "gap" not in text
+    assert "assays.csv (assays): 1 error, 1 warning" in text
 
 
 def test_composite_writes_one_file(tmp_path, capsys):

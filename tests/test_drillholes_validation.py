@@ -398,3 +398,18 @@ def test_duplicate_block_and_plant_period():
     messages = [p.message for p in only(problems, "duplicate_key")]
     assert "block_id B1 appears more than once in 'blocks' (blocks row 1)" in messages[0]
     assert "period 1 appears more than once in 'plant_limits'" in messages[1]
+
+
+def test_testwork_samples_are_sparse_so_gaps_are_not_reported():
+    # Testwork samples are taken here and there along a hole (common practice), unlike assays.
+    import pandas as pd
+
+    from geomet.drillholes.validation import validate_tables
+
+    collars = pd.DataFrame({"hole_id": ["H1"], "easting_m": [0.0], "northing_m": [0.0],
+                            "elevation_m": [100.0], "total_depth_m": [200.0]})
+    spaced = pd.DataFrame({"hole_id": ["H1", "H1"], "from_m": [10.0, 80.0], "to_m": [30.0, 100.0]})
+    gaps = {t: [p for p in validate_tables({"collars": collars, t: spaced}) if p.rule == "gap"]
+            for t in ("testwork", "assays")}
+    assert gaps["testwork"] == []
+    assert len(gaps["assays"]) == 1 and "gap from 30 to 80 m in hole H1" in gaps["assays"][0].message

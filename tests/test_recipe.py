@@ -12,6 +12,7 @@ from run_fixtures import write_recipe
 from geomet.errors import RecipeError
 from geomet.recipe import explain, load_recipe, parse_recipe, section_docs, validate_step_options
 from geomet.recipe.explain import allowed_values, toml_value, type_name
+from geomet.recipe.loader import RecipeProblem
 from geomet.recipe.sections import DetectionSection, RunSection
 from geomet.run.registry import Step, StepOptions
 
@@ -430,3 +431,40 @@ def test_sheets_must_be_tables_the_steps_produce(tmp_path):
         r"produce: validation_report, composites\)",
     ):
         load_recipe(path)
+
+
+def test_units_the_reader_cannot_convert_are_recipe_errors(tmp_path):
+    path = write_recipe(tmp_path)
+    path.write_text(
+        path.read_text().replace(
+            'units = { au_gpt = "ppb" }', 'units = { au_gpt = "ppbb", hole_id = "m" }'
+        )
+    )
+    with pytest.raises(RecipeError) as info:
+        load_recipe(path)
+    message = str(info.value)
+    assert "inputs.assays.units.au_gpt: got 'ppbb'; cannot convert unit 'ppbb' to 'g/t'" in message
+    assert "inputs.assays.units.hole_id: column 'hole_id' has no unit suffix" in message
+
+
+def test_misspelt_column_map_target_is_caught(tmp_path):
+    path = write_recipe(tmp_path)
+    path.write_text(path.read_text().replace('"Cu_%" = "cu_pct"', '"Cu_%" = "cu_ptc"'))
+    with pytest.raises(
+        RecipeError,
+        match=r"inputs\.assays\.columns: maps 'Cu_%' to 'cu_ptc', "
+        r"which is not a canonical column; did you mean "
+        r"'cu_pct'\?",
+    ):
+        load_recipe(path)
+    # A new column that carries a unit suffix is the user's own, not a misspelling.
+    path.write_text(path.read_text().replace('"cu_ptc"', '"cu_fire_assay_pct"'))
+    assert load_recipe(path).inputs["assays"].columns["Cu_%"] == "cu_fire_assay_pct"
+
+
+def test_missing_run_section_is_one_problem(tmp_path):
+    with pytest.raises(RecipeError) as info:
+        parse('[detection]\nrule = "zero"\n', tmp_path)
+    assert info.value.problems == [
+        RecipeProblem("run", "missing section [run] (it gives at least steps = [...])")
+    ]

@@ -289,6 +289,7 @@ def test_run_recipe_writes_a_complete_output_folder(tmp_path, plot_step):
     assert (out / "test.toml").read_text() == recipe.read_text()
     log = (out / "run.log").read_text()
     for text in (
+        "Vellantra test run: recipe test.toml, geomet",
         "step 1/3 check: started",
         "step composite: finished in",
         "composite: 14 composites",
@@ -545,3 +546,31 @@ def test_sheets_option_chooses_workbook_sheets(tmp_path):
     names = openpyxl.load_workbook(tmp_path / "out" / "v.xlsx", read_only=True).sheetnames
     assert names == ["About this run", "Composites", "Column guide", "Recipe"]
     assert (tmp_path / "out" / "tables" / "validation_report.csv").is_file()
+
+
+def test_save_result_writes_a_run_of_steps(tmp_path, steps, plot_step):
+    from geomet.run.pipeline import save_result
+
+    recipe = write_recipe(tmp_path)
+    from geomet.recipe import load_recipe
+    from geomet.run.pipeline import read_inputs
+
+    tables, _, _ = read_inputs(load_recipe(recipe))
+    result = run_steps(tables, ["composite", "summary_test"], plot_dir=tmp_path / "pngs")
+    out = save_result(result, tmp_path / "saved", table_format="parquet", workbook="s.xlsx")
+    assert out == (tmp_path / "saved").resolve() == result.out_dir
+    assert sorted(p.name for p in (out / "tables").iterdir()) == [
+        "composites.parquet",
+        "cu_summary.parquet",
+    ]
+    assert (out / "plots" / "cu_downhole.png").is_file()
+    assert result.plots[0].path == out / "plots" / "cu_downhole.png"
+    assert (out / "models" / "cu_model.json").is_file()
+    assert json.loads((out / "provenance.json").read_text())["steps"] == [
+        "composite",
+        "summary_test",
+    ]
+    import openpyxl
+
+    names = openpyxl.load_workbook(out / "s.xlsx", read_only=True).sheetnames
+    assert names == ["About this run", "Composites", "Cu summary", "Plots", "Column guide"]

@@ -347,7 +347,12 @@ def test_units_and_meanings_of_statistic_and_helper_columns():
     assert column_unit("au_gpt_censored") == ""
     assert column_unit("flotation_time_min") == "min"  # minutes, not a minimum
     assert column_description("cu_pct_max") == "Maximum of total copper (cu_pct)"
-    assert column_description("cu_recovery_frac_p10") == "10th percentile of cu_recovery_frac"
+    assert column_description("grind_index_frac_p10") == "10th percentile of grind_index_frac"
+    known = describe("cu_pct").rstrip(".")
+    assert (
+        column_description("cu_pct_p90") == f"90th percentile of {known[0].lower()}{known[1:]} "
+        "(cu_pct)"
+    )
     assert column_description("au_gpt_censored").startswith("True where au_gpt was reported")
     assert column_description("hole_id") == describe("hole_id")
 
@@ -402,3 +407,16 @@ def test_sheet_xml_is_well_formed_and_ordered(tmp_path):
                     cols = [column_index_from_string(re.match(r"[A-Z]+", r).group()) for r in refs]
                     assert cols == sorted(set(cols))
                     assert all(r.endswith(row.get("r")) for r in refs)
+
+
+def test_sheets_print_on_pages_one_wide_with_headers_repeated(book):
+    path, _ = book
+    wb = openpyxl.load_workbook(path)
+    ws = wb["Composites"]
+    assert ws.print_title_rows == "$3:$4"  # header and units rows on every printed page
+    assert ws.page_setup.orientation == "landscape"
+    assert ws.sheet_properties.pageSetUpPr.fitToPage
+    assert ws.page_setup.fitToWidth == 1
+    assert ws.oddFooter.center.text == "Page &P of &N"
+    assert ws.oddHeader.left.text == "Vellantra pit shell 4"
+    assert wb[ABOUT_SHEET].page_setup.orientation == "portrait"

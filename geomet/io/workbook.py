@@ -14,8 +14,13 @@ Layout
 - **Column guide**: every column of every table with its unit and meaning.
 - **Recipe**: the recipe text, line by line.
 
-Every sheet is written in openpyxl's write-only (streaming) mode, so tables of tens of thousands
-of rows write in seconds and memory stays flat.
+Sheets print one page wide with the header and units rows repeated on every page.
+
+Speed: openpyxl (write-only mode) lays out every sheet, its styles, comments, filters and
+images; the data rows of the table sheets are then streamed into the saved file as SpreadsheetML,
+5 000 rows at a time, with each column's style taken from a probe row openpyxl wrote. That is
+about ten times faster than one styled openpyxl cell per value (``benchmarks/bench_workbook.py``)
+and keeps memory flat, so tables of tens of thousands of rows write in seconds.
 """
 
 from __future__ import annotations
@@ -345,7 +350,9 @@ def write_workbook(
     _about_sheet(wb, result, title, tables, names, produced, bool(plots), provenance)
     pending: dict[str, pd.DataFrame] = {}
     for table, frame in tables.items():
-        rest = _table_sheet(wb, names[table], table, frame, produced[table], plots=table in plotted)
+        rest = _table_sheet(
+            wb, names[table], table, frame, produced[table], plots=table in plotted, title=title
+        )
         if rest is not None:
             pending[names[table]] = rest
     if plots:
@@ -405,8 +412,22 @@ def _link(sheet: str) -> Hyperlink:
     return Hyperlink(ref="A1", location="'{}'!A1".format(sheet.replace("'", "''")))
 
 
+def _print_setup(ws, title: str, *, title_rows: str | None = None, landscape: bool = True) -> None:
+    """Printing: one page wide, header rows repeated, run title and page numbers on every page."""
+    ws.page_setup.orientation = "landscape" if landscape else "portrait"
+    ws.page_setup.fitToWidth = 1
+    ws.page_setup.fitToHeight = 0  # as many pages down as needed
+    ws.sheet_properties.pageSetUpPr.fitToPage = True
+    if title_rows:
+        ws.print_title_rows = title_rows
+    ws.oddHeader.left.text = title.replace("&", "&&")
+    ws.oddHeader.right.text = "&A"  # the sheet name
+    ws.oddFooter.center.text = "Page &P of &N"
+
+
 def _about_sheet(wb, result, title, tables, names, produced, has_plots, provenance) -> None:
     ws = wb.create_sheet(ABOUT_SHEET)
+    _print_setup(ws, title, landscape=False)
     for letter, width in zip("ABCD", (30, 70, 40, 12), strict=True):
         ws.column_dimensions[letter].width = width
     ws.sheet_view.showGridLines = False
@@ -570,10 +591,18 @@ def _column_widths(frame: pd.DataFrame, sample_rows: int = 300) -> list[float]:
 
 
 def _table_sheet(
-    wb, sheet: str, table: str, frame: pd.DataFrame, description: str, *, plots: bool
+    wb,
+    sheet: str,
+    table: str,
+    frame: pd.DataFrame,
+    description: str,
+    *,
+    plots: bool,
+    title: str = "geomet run",
 ) -> pd.DataFrame | None:
-    """Write a table's header rows and first data row; return the rows still to write."""
+    """Write a table's title, description, header and units rows; return the rows to stream."""
     ws = wb.create_sheet(sheet)
+    _print_setup(ws, title, title_rows=f"{HEADER_ROWS - 1}:{HEADER_ROWS}")
     columns = [str(c) for c in frame.columns]
     n_cols = max(len(columns), 1)
     limit = EXCEL_MAX_ROWS - HEADER_ROWS

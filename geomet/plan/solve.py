@@ -1,8 +1,10 @@
 """Hand a built blend model to HiGHS and read the answer back.
 
-One-shot solves compile the Pyomo model with Pyomo's ``LinearStandardFormCompiler`` to sparse
-matrices and pass them to ``highspy.Highs.passModel`` (much cheaper than walking every constraint
-through a solver interface). Integrality is always passed as an explicit int32 array (zeros for an
+One-shot solves compile the Pyomo model to sparse standard-form matrices with
+:func:`geomet.plan.standard_form.compile_linear` (the output of Pyomo's
+``LinearStandardFormCompiler``, read straight off the model's ``LinearExpression`` rows) and pass
+them to ``highspy.Highs.passModel`` (much cheaper than walking every constraint through a solver
+interface). Integrality is always passed as an explicit int32 array (zeros for an
 LP): an empty array is not a safe way to say "no integers" in highspy's array interface.
 
 Scenario re-solves that change limit values only keep the rows and columns: they can start dual
@@ -20,12 +22,11 @@ import numpy as np
 import pyomo.environ as pyo
 import scipy.sparse as sp
 from pyomo.common.errors import InfeasibleConstraintException
-from pyomo.core.base.objective import ObjectiveSense
-from pyomo.repn.plugins.standard_form import LinearStandardFormCompiler
 
 from geomet.plan.highs import quiet_highs
 from geomet.errors import SolverError
 from geomet.plan.model import BlendModel
+from geomet.plan.standard_form import compile_linear
 
 ALGORITHMS = ("ipm", "simplex", "choose", "ipx", "pdlp")
 _KCOLWISE = 1
@@ -144,14 +145,9 @@ def compile_blend_model(bm: BlendModel) -> CompiledModel:
     """
     start = time.perf_counter()
     m = bm.model
-    info = LinearStandardFormCompiler().write(m, mixed_form=True, set_sense=ObjectiveSense.minimize)
+    form = compile_linear(m)
+    info, col_of = form.info, form.col_of
     n_col = len(info.columns)
-    pos = {id(v): j for j, v in enumerate(info.columns)}
-    col_of = {}
-    for comp in m.component_objects(pyo.Var, active=True):
-        col_of[comp.local_name] = np.fromiter(
-            (pos.get(id(v), -1) for v in comp.values()), dtype=np.int64, count=len(comp)
-        )
     col_lower = np.zeros(n_col)
     col_upper = np.full(n_col, np.inf)
     integrality = np.zeros(n_col, dtype=np.int32)
@@ -164,8 +160,7 @@ def compile_blend_model(bm: BlendModel) -> CompiledModel:
     rhs = np.asarray(info.rhs, float)
     row_lower = np.where(mult == 1, -np.inf, rhs)
     row_upper = np.where(mult == -1, np.inf, rhs)
-    family = [r[0].parent_component().local_name for r in info.rows]
-    index = np.fromiter((r[0].index() for r in info.rows), dtype=np.int64, count=len(info.rows))
+    family, index = form.row_family, form.row_index
     c = np.asarray(info.c.todense()).ravel() if info.c.shape[0] else np.zeros(n_col)
     offset = float(info.c_offset[0]) if len(info.c_offset) else 0.0
     sign = 1.0 if bm.elastic else -1.0  # the value objective is a maximum, compiled as a minimum

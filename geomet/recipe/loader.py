@@ -188,12 +188,14 @@ def parse_recipe(
                 )
             )
 
-    run = _validate(RunSection, _table(data, "run"), "run", problems)
-    detection = _validate(DetectionSection, _table(data, "detection"), "detection", problems)
-    if "run" not in data:
+    if "run" in data:
+        run = _validate(RunSection, _table(data, "run"), "run", problems)
+    else:
+        run = None
         problems.append(
             RecipeProblem("run", "missing section [run] (it gives at least steps = [...])")
         )
+    detection = _validate(DetectionSection, _table(data, "detection"), "detection", problems)
 
     asked = _asked_steps(data, run)
     for name in asked:
@@ -429,8 +431,64 @@ def _validate_inputs(
                 problems.append(RecipeProblem(f"{key}.path", _missing_file_message(given, file)))
                 continue
         if model is not None:
+            problems.extend(_unit_problems(key, model.units))
+            problems.extend(_column_map_problems(key, model.columns))
             inputs[name] = model
     return inputs
+
+
+def _canonical_columns() -> set[str]:
+    from geomet import glossary
+
+    return {
+        *glossary.COLUMNS,
+        *glossary.ASSAY_COLUMNS,
+        *glossary.SCANNED_MINERAL_COLUMNS,
+        *glossary.SCAN_FEATURE_COLUMNS,
+        *glossary.COLLAR_COLUMNS,
+        *glossary.SURVEY_COLUMNS,
+    }
+
+
+def _column_map_problems(key: str, columns: dict[str, str]) -> list[RecipeProblem]:
+    """Column-map targets that look like misspelt canonical names (no unit suffix, one close)."""
+    from geomet.glossary import unit_of
+
+    known = _canonical_columns()
+    out = []
+    for source, target in columns.items():
+        if target in known or unit_of(target):
+            continue
+        match = difflib.get_close_matches(target, sorted(known), n=1, cutoff=0.8)
+        if match:
+            message = (
+                f"maps {source!r} to {target!r}, which is not a canonical column; did you mean "
+                f"{match[0]!r}?"
+            )
+            out.append(RecipeProblem(f"{key}.columns", message))
+    return out
+
+
+def _unit_problems(key: str, units: dict[str, str]) -> list[RecipeProblem]:
+    """Source units the reader cannot convert into the canonical column's unit."""
+    from geomet.errors import InputDataError
+    from geomet.io.readers import canonical_unit, unit_factor
+
+    out = []
+    for column, unit in units.items():
+        target = canonical_unit(column)
+        if not target:
+            message = (
+                f"column {column!r} has no unit suffix (e.g. _pct, _gpt, _ppm, _m), so there is "
+                f"no canonical unit to convert {unit!r} into"
+            )
+            out.append(RecipeProblem(f"{key}.units.{column}", message))
+            continue
+        try:
+            unit_factor(unit, target)
+        except InputDataError as exc:
+            out.append(RecipeProblem(f"{key}.units.{column}", f"got {unit!r}; {exc}"))
+    return out
 
 
 def _missing_file_message(given: str, resolved: Path) -> str:

@@ -544,14 +544,7 @@ def run_recipe(
         Before anything is written, or (for data errors found by a step) with the output folder
         left as it was.
     """
-    from geomet.io.workbook import write_workbook
-    from geomet.io.writers import (
-        atomic_write_text,
-        check_output_folder,
-        staged_directory,
-        write_json,
-        write_tables,
-    )
+    from geomet.io.writers import check_output_folder, staged_directory
 
     recipe = load_recipe(path)
     registry = load_steps()
@@ -565,46 +558,113 @@ def run_recipe(
 
     with staged_directory(out_dir) as stage, _run_log(stage / "run.log") as log:
         log.info(
-            "run of recipe %s with geomet %s, %d steps: %s",
+            "%s: recipe %s, geomet %s, %d steps: %s",
+            recipe.run.title,
             recipe.path.name if recipe.path else "",
             geomet.__version__,
             len(ordered),
             ", ".join(s.name for s in ordered),
         )
         result = run_loaded_recipe(recipe, show_progress=show_progress, plot_dir=stage / "plots")
-        for folder in ("tables", "plots", "models"):
-            (stage / folder).mkdir(exist_ok=True)
-        started = time.perf_counter()
-        write_tables(result.outputs, stage / "tables", recipe.run.table_format)
-        log.info(
-            "wrote %d tables (%s) in %.1f s",
-            len(result.outputs),
-            recipe.run.table_format,
-            time.perf_counter() - started,
-        )
-        for name, payload in sorted(result.extras.get("json_files", {}).items()):
-            write_json(payload, stage / "models" / f"{_file_stem(name)}.json")
         recipe_name = recipe.path.name if recipe.path else "recipe.toml"
-        atomic_write_text(stage / recipe_name, recipe.text)
-        result.provenance["finished_utc"] = _now()
-        write_json(result.provenance, stage / "provenance.json")
-        started = time.perf_counter()
-        write_workbook(stage / recipe.run.workbook, result, sheets=recipe.run.sheets or None)
-        log.info(
-            "wrote the workbook %s in %.1f s", recipe.run.workbook, time.perf_counter() - started
-        )
-        # Plot paths point into the staged folder; point them at the final one.
-        result.plots[:] = [
-            dataclasses.replace(p, path=out_dir / p.path.relative_to(stage)) for p in result.plots
-        ]
-        log.info(
-            "run finished: %d tables, %d plots, %d warnings",
-            len(result.produced),
-            len(result.plots),
-            len(result.warnings),
+        _write_outputs(
+            result,
+            stage,
+            out_dir,
+            table_format=recipe.run.table_format,
+            workbook=recipe.run.workbook,
+            sheets=recipe.run.sheets or None,
+            recipe_file=(recipe_name, recipe.text),
         )
     result.out_dir = out_dir
     return result
+
+
+def save_result(
+    result: RunResult,
+    out: str | Path,
+    *,
+    table_format: str = "csv",
+    workbook: str = "geomet_results.xlsx",
+    sheets: Iterable[str] | None = None,
+) -> Path:
+    """Write the output folder of a :func:`run_steps` result (as :func:`run_recipe` would).
+
+    The folder gets the workbook, ``tables/``, ``plots/`` (copies of the PNGs the steps saved),
+    ``models/`` and ``provenance.json``; it is staged beside ``out`` and moved into place at the
+    end, and an existing folder is replaced only if geomet wrote it.
+
+    Returns
+    -------
+    Path
+        The folder written (also set as ``result.out_dir``).
+    """
+    from geomet.io.writers import check_output_folder, staged_directory
+
+    out_dir = Path(out).resolve()
+    check_output_folder(out_dir)
+    with staged_directory(out_dir) as stage, _run_log(stage / "run.log") as log:
+        log.info("saving a run of steps %s", ", ".join(r.name for r in result.steps))
+        (stage / "plots").mkdir()
+        for plot in list(result.plots):
+            if Path(plot.path).is_file():
+                target = stage / "plots" / Path(plot.path).name
+                target.write_bytes(Path(plot.path).read_bytes())
+                result.plots[result.plots.index(plot)] = dataclasses.replace(plot, path=target)
+        _write_outputs(
+            result, stage, out_dir, table_format=table_format, workbook=workbook, sheets=sheets
+        )
+    result.out_dir = out_dir
+    return out_dir
+
+
+def _write_outputs(
+    result: RunResult,
+    stage: Path,
+    out_dir: Path,
+    *,
+    table_format: str,
+    workbook: str,
+    sheets: Iterable[str] | None,
+    recipe_file: tuple[str, str] | None = None,
+) -> None:
+    """Write tables, models, recipe copy, provenance and workbook into the staged folder."""
+    from geomet.io.workbook import write_workbook
+    from geomet.io.writers import atomic_write_text, write_json, write_tables
+
+    log = logging.getLogger(LOGGER_NAME)
+    for folder in ("tables", "plots", "models"):
+        (stage / folder).mkdir(exist_ok=True)
+    started = time.perf_counter()
+    write_tables(result.outputs, stage / "tables", table_format)
+    log.info(
+        "wrote %d tables (%s) in %.1f s",
+        len(result.outputs),
+        table_format,
+        time.perf_counter() - started,
+    )
+    for name, payload in sorted(result.extras.get("json_files", {}).items()):
+        write_json(payload, stage / "models" / f"{_file_stem(name)}.json")
+    if recipe_file is not None:
+        atomic_write_text(stage / recipe_file[0], recipe_file[1])
+    result.provenance["finished_utc"] = _now()
+    write_json(result.provenance, stage / "provenance.json")
+    started = time.perf_counter()
+    write_workbook(stage / workbook, result, sheets=sheets)
+    log.info("wrote the workbook %s in %.1f s", workbook, time.perf_counter() - started)
+    # Plot paths point into the staged folder; point them at the final one.
+    result.plots[:] = [
+        dataclasses.replace(p, path=out_dir / Path(p.path).relative_to(stage))
+        if Path(p.path).is_relative_to(stage)
+        else p
+        for p in result.plots
+    ]
+    log.info(
+        "run finished: %d tables, %d plots, %d warnings",
+        len(result.produced),
+        len(result.plots),
+        len(result.warnings),
+    )
 
 
 _FILE_STEM = re.compile(r"^[A-Za-z0-9][A-Za-z0-9_.-]{0,100}$")
