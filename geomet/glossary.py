@@ -189,6 +189,14 @@ INPUT_TABLES = {
     "site_domains": "Domain codes supplied by the site, by interval.",
 }
 INTERVAL_INPUTS = ("assays", "scan", "lithology", "density", "testwork", "site_domains")
+# Tables keyed by something other than downhole intervals: geometry, blocks and plans. No
+# censoring applies to their numbers (a negative dip is a dip, not a value below detection).
+NON_INTERVAL_TABLES = frozenset({"collars", "surveys", "blocks", "schedule", "plant_limits"})
+# Columns that hold text (identifiers, codes, dates) whatever their name looks like.
+TEXT_COLUMNS = frozenset(
+    {"hole_id", "sample_id", "block_id", "lith_code", "site_domain", "domain", "phase",
+     "test_date", "lab", "comment", "comments"}
+)
 
 COLUMNS: dict[str, Column] = _cols(
     ("hole_id", "Drill-hole identifier."),

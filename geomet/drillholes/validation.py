@@ -32,22 +32,8 @@ REQUIRED_COLUMNS: dict[str, tuple[str, ...]] = {
     "schedule": ("block_id", "period"),
     "plant_limits": ("period",),
 }
-NON_INTERVAL_TABLES = frozenset({"collars", "surveys", "blocks", "schedule", "plant_limits"})
-TEXT_COLUMNS = frozenset(
-    {
-        "hole_id",
-        "sample_id",
-        "block_id",
-        "lith_code",
-        "site_domain",
-        "domain",
-        "phase",
-        "test_date",
-        "lab",
-        "comment",
-        "comments",
-    }
-)
+NON_INTERVAL_TABLES = glossary.NON_INTERVAL_TABLES
+TEXT_COLUMNS = glossary.TEXT_COLUMNS
 # Units of columns that cannot be negative (concentrations, densities, energies).
 NON_NEGATIVE_UNITS = frozenset({"%", "ppm", "ppb", "g/t", "kg/t", "t/m³", "kWh/t", "t", "t/h"})
 FILE_LEVEL_FATAL = frozenset({"empty_file", "file_too_large", "bad_workbook", "bad_parquet"})

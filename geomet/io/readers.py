@@ -49,25 +49,9 @@ MAX_CELL_PROBLEMS_PER_COLUMN = 1000  # then one summary problem for the rest of 
 DELIMITERS = (",", ";", "\t", "|")
 ENCODINGS = ("utf-8", "cp1252", "latin-1")
 
-# Tables whose numeric columns are geometry or plans, not lab results: no censoring applies there
-# (a negative dip is a dip, not a value below detection).
-GEOMETRY_TABLES = frozenset({"collars", "surveys", "blocks", "schedule", "plant_limits"})
-# Columns that hold text (identifiers, codes, dates) whatever their name looks like.
-TEXT_COLUMNS = frozenset(
-    {
-        "hole_id",
-        "sample_id",
-        "block_id",
-        "lith_code",
-        "site_domain",
-        "domain",
-        "phase",
-        "test_date",
-        "lab",
-        "comment",
-        "comments",
-    }
-)
+# Geometry and plan tables get no censoring; text columns are never parsed as numbers.
+GEOMETRY_TABLES = glossary.NON_INTERVAL_TABLES
+TEXT_COLUMNS = glossary.TEXT_COLUMNS
 KEY_NUMERIC_COLUMNS = frozenset({"from_m", "to_m", "depth_m"})
 # Numeric columns without a unit suffix.
 UNITLESS_NUMERIC = frozenset({"smc_axb", "period", "days", "domain_id"})
