@@ -68,8 +68,9 @@ CAUTIONS = (
     "The process forecasts in this workbook (throughput, energy, recovery, concentrate grade, acid "
     "consumption) are planning aids from models calibrated on the testwork supplied. They must be "
     "confirmed by metallurgical testwork before they are relied on.",
-    "Results used in public reporting of Mineral Resources or Ore Reserves must be reviewed and "
-    "signed off by a qualified person under the applicable public reporting code and local "
+    "Mine plans, blend schedules and sample selections built on these forecasts, and any result "
+    "used in public reporting of Mineral Resources or Ore Reserves, must be reviewed and signed "
+    "off by a qualified person under the applicable public reporting code and local "
     "regulations.",
     "Acid handling and supply, and the plant limits used in any blend plan, need review by site "
     "engineering before they are used to run the plant.",
