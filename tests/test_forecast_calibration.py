@@ -189,3 +189,13 @@ def test_too_few_tests_fall_back_to_defaults(samples):
         models["bond_bwi_kwh_t"].coefficients_
         == cal.DEFAULT_HARDNESS_COEFFICIENTS["bond_bwi_kwh_t"]
     )
+
+
+def test_kinetic_model_with_few_tests_leans_on_the_prior(samples):
+    X = samples[1].iloc[:5].reset_index(drop=True)
+    y = cal.make_model("cu_recovery_frac", "none").fit(None, None).predict(X)
+    # Five tests, eleven coefficients: determined with the prior, refused without it.
+    model = cal.KineticRecoveryModel(metal="cu").fit(X, y)
+    assert np.isfinite(model.predict(X)).all()
+    with pytest.raises(InputDataError, match=r"5 tests with a recovery cannot fit 11 coeff"):
+        cal.KineticRecoveryModel(metal="cu", prior_strength=0.0).fit(X, y)

@@ -15,6 +15,7 @@ import pandas as pd
 import pytest
 
 from geomet.forecast import calibration as cal
+from geomet.forecast.censored import background_ratio_frac, oxide_cu_below_detection
 from geomet.forecast.inputs import resolve_inputs
 from geomet.forecast.join import overlap_join
 from geomet.forecast.testwork import reduce_flotation_tests
@@ -50,6 +51,18 @@ def demo(demo_dir):
     assays = read_table(
         demo_dir / "assays.csv", table="assays", column_map=ASSAY_MAP, units={"au_gpt": "ppb"}
     ).table
+    # Acid-soluble Cu below detection re-read for the oxide ratio as the forecast step does
+    # (option cu_asol_below_detection = "background_ratio").
+    censored = assays["cu_asol_pct_censored"].to_numpy(dtype=bool)
+    assays["cu_asol_pct"] = oxide_cu_below_detection(
+        assays["cu_asol_pct"],
+        assays["cu_pct"],
+        censored,
+        assays["cu_asol_pct_detection_limit"],
+        background_ratio_frac=background_ratio_frac(
+            assays["cu_asol_pct"], assays["cu_pct"], censored
+        ),
+    )
     truth = pd.read_csv(demo_dir / "truth" / "testwork_truth.csv").set_index("sample_id")
     params = json.loads((demo_dir / "truth" / "parameters.json").read_text())["testwork"]
     minerals = [
@@ -125,11 +138,8 @@ def test_bond_error_against_stated_noise(demo):
 def test_calibration_removes_the_measurement_noise(demo, response):
     # The error against the truth has two parts: the model form and its inputs (what the same
     # model fitted to the noise-free truth still misses: the "floor") and what the measurement
-    # noise leaves in the fit. For recoveries the floor is large: most demo samples have
-    # acid-soluble Cu below detection (read as half the limit), which inflates their oxide
-    # ratio against the generator's inputs, an input error no fit removes. The noise part must
-    # be well below the noise itself (tolerance 0.5 × the realised noise; 80 tests, <= 8
-    # coefficients).
+    # noise leaves in the fit. The noise part must be well below the noise itself (tolerance
+    # 0.5 × the realised noise; 80 tests, <= 11 coefficients).
     X, measured, true, models, _, params = demo
     kw = {"time_min": params["rougher_cu"]["time_min"]} if "recovery" in response else {}
     best = cal.make_model(response, "parametric", **kw).fit(X, np.asarray(true[response], float))
@@ -147,3 +157,28 @@ def test_interval_coverage_near_target(demo):
     cover = report["interval_coverage_frac"]
     # 80 tests: the binomial standard error of an 80 % coverage is 4.5 points.
     assert ((cover > 0.65) & (cover < 0.95)).all()
+
+
+def test_cu_recovery_error_against_truth(demo):
+    # With below-detection CuAS re-read at the sulfide background ratio and per-clay rate
+    # effects, calibrated Cu recovery is within 0.0125 (RMSE, fraction) of the noise-free truth
+    # (achieved 0.011; half-limit CuAS and the severity-index rate gave 0.033). 0.0125 is below
+    # the realised measurement noise (0.014): the fit now beats a single test. The remainder is
+    # mostly one sample whose Cu head (0.003 %) is below the CuAS limit, so its oxide ratio is
+    # undetermined (taken as 0.5; true 0.75).
+    X, measured, true, models, report, _ = demo
+    error = _rmse(models["cu_recovery_frac"].predict(X), true["cu_recovery_frac"])
+    noise = _rmse(measured["cu_recovery_frac"], true["cu_recovery_frac"])
+    assert error < 0.0125, error
+    assert error < noise, (error, noise)
+    row = report.set_index("response").loc["cu_recovery_frac"]
+    # CV RMSE by hole against measured recovery: 0.026 achieved (0.039 before the change).
+    assert row["rmse_cv"] < 0.03, row["rmse_cv"]
+
+
+def test_au_recovery_error_against_truth(demo):
+    # Same inputs and rate form for Au: 0.021 achieved against the truth (0.031 before), with
+    # measurement noise 0.032; tolerance 0.025.
+    X, measured, true, models, _, _ = demo
+    error = _rmse(models["au_recovery_frac"].predict(X), true["au_recovery_frac"])
+    assert error < 0.025, error

@@ -49,7 +49,7 @@ def tables():
 def test_forecast_step_outputs(tables, method, tmp_path):
     step = STEPS["forecast"]
     assert step.needs == ("domained", "testwork")
-    assert step.optional_needs == ("blocks_domained",)
+    assert step.optional_needs == ("blocks_domained", "assays")
     ctx = StepContext(tables=tables, plot_dir=tmp_path)
     out = step.func(ctx, step.options(calibration_method=method))
     assert set(out) == set(step.produces)

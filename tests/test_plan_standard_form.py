@@ -11,7 +11,7 @@ import numpy as np
 import pyomo.environ as pyo
 import pytest
 from pyomo.common.errors import InfeasibleConstraintException
-from pyomo.core.expr.numeric_expr import LinearExpression
+from pyomo.core.expr.numeric_expr import LinearExpression, MonomialTermExpression
 from test_plan_helpers import small_case
 
 from geomet.plan import MilpSpec, build_blend_model
@@ -32,6 +32,8 @@ def assert_same(fast, ref):
     assert all(x is y for x, y in zip(a.columns, b.columns, strict=True))
     assert fast.row_family == ref.row_family
     np.testing.assert_array_equal(fast.row_index, ref.row_index)
+    np.testing.assert_array_equal(fast.row_mult, ref.row_mult)
+    assert fast.row_mult.tolist() == [r[1] for r in a.rows]
     assert fast.col_of.keys() == ref.col_of.keys()
     for name in fast.col_of:
         np.testing.assert_array_equal(fast.col_of[name], ref.col_of[name])
@@ -73,6 +75,8 @@ def _toy():
         (lin([1.0, 0.0], [y[0], x[1]]), -1.0, 5.0),  # ranged: upper row then lower row
         (lin([4.0], [x[3]]), 2.0, 2.0),  # equality
         (lin([0.0], [x[1]]), None, 3.0),  # all-zero row that holds: skipped
+        (LinearExpression([x[2], y[0]]), None, 6.0),  # bare variables: coefficient one
+        (LinearExpression([x[3], MonomialTermExpression((-2.0, y[1])), x[3]]), 0.0, None),
     ]
     return m, bodies
 
@@ -98,16 +102,23 @@ def test_pyomo_rules_reproduced_on_a_toy_model():
     ref = pyomo_compile(m)
     assert_same(fast, ref)
     # worked by hand: the objective meets x first, so x0 x2 x3 (x1 only has zero or cancelling
-    # coefficients) come before y0 y1; z is never used; rows 0, 2 (upper, lower) and 3 remain
-    assert fast.info.A.shape == (4, 5)
+    # coefficients) come before y0 y1; z is never used; rows 0, 2 (upper, lower), 3, 5, 6 remain
+    assert fast.info.A.shape == (6, 5)
     assert fast.col_of["x"].tolist() == [0, -1, 1, 2]
     assert fast.col_of["y"].tolist() == [3, 4]
     assert fast.col_of["z"].tolist() == [-1, -1, -1]
-    assert [r[1] for r in fast.info.rows] == [1, 1, -1, 0]
-    assert fast.info.rhs == [4.0, 5.0, -1.0, 2.0]
+    assert [r[1] for r in fast.info.rows] == [1, 1, -1, 0, 1, -1]
+    assert fast.info.rhs == [4.0, 5.0, -1.0, 2.0, 6.0, 0.0]
     np.testing.assert_array_equal(
         fast.info.A.toarray(),
-        [[2, 0, 0, 0, 3], [0, 0, 0, 1, 0], [0, 0, 0, 1, 0], [0, 0, 4, 0, 0]],
+        [
+            [2, 0, 0, 0, 3],
+            [0, 0, 0, 1, 0],
+            [0, 0, 0, 1, 0],
+            [0, 0, 4, 0, 0],
+            [0, 1, 0, 1, 0],
+            [0, 0, 2, 0, -2],
+        ],
     )
     np.testing.assert_array_equal(fast.info.c.toarray(), [[2, -1, 0, 0, 0]])  # maximum negated
 
@@ -121,7 +132,9 @@ def test_infeasible_empty_row_raises_like_pyomo():
         pyomo_compile(m)
 
 
-@pytest.mark.parametrize("change", ["param", "fixed", "general_body", "block"])
+@pytest.mark.parametrize(
+    "change", ["param", "fixed", "variable_body", "expression", "block", "foreign_variable"]
+)
 def test_models_outside_the_fast_path_fall_back_to_pyomo(change):
     m, bodies = _toy()
     bodies[1] = (bodies[1][0], -1.0, None)
@@ -131,11 +144,18 @@ def test_models_outside_the_fast_path_fall_back_to_pyomo(change):
         m.extra = pyo.Constraint(expr=m.p * m.x[0] <= 3.0)
     elif change == "fixed":
         m.y[0].fix(1.0)
-    elif change == "general_body":
-        m.extra = pyo.Constraint(expr=m.x[0] + 2 * m.x[1] - m.y[0] <= 3.0)
-    else:
+    elif change == "variable_body":
+        m.extra = pyo.Constraint([0], rule=lambda _m, _i: m.x[0] <= 3.0)
+    elif change == "expression":
+        m.e = pyo.Expression(expr=m.x[0] + 2 * m.x[1])
+        m.extra = pyo.Constraint([0], rule=lambda _m, _i: m.e <= 3.0)
+    elif change == "block":
         m.sub = pyo.Block()
         m.sub.v = pyo.Var()
+    else:  # a variable that belongs to no component of this model
+        other = pyo.ConcreteModel()
+        other.w = pyo.Var()
+        m.extra = pyo.Constraint([0], rule=lambda _m, _i: LinearExpression([other.w, m.x[0]]) <= 1)
     fast = compile_linear(m)
     assert not fast.fast
     assert_same(fast, pyomo_compile(m))

@@ -42,6 +42,7 @@ from geomet.forecast.calibration import (
     model_from_json,
     model_to_json,
 )
+from geomet.forecast.censored import background_ratio_frac, oxide_cu_below_detection
 from geomet.forecast.comminution import (
     bond_ball_mill_energy,
     bond_specific_energy,
@@ -53,6 +54,7 @@ from geomet.forecast.comminution import (
 )
 from geomet.forecast.flotation import (
     au_recovery_frac,
+    clay_rate_factor,
     cu_recovery_frac,
     first_order_recovery,
     klimpel_recovery,
@@ -84,11 +86,13 @@ __all__ = [
     "acid_per_kg_cu",
     "add_forecasts",
     "au_recovery_frac",
+    "background_ratio_frac",
     "bond_ball_mill_energy",
     "bond_specific_energy",
     "calibrate_response",
     "clay_limited_throughput",
     "clay_penalty_frac",
+    "clay_rate_factor",
     "conformal_quantile",
     "cu_recovery_frac",
     "domain_forecasts",
@@ -104,6 +108,7 @@ __all__ = [
     "morrell_stage_energy",
     "n_cell_recovery",
     "overlap_join",
+    "oxide_cu_below_detection",
     "oxide_cu_acid_kg_t",
     "power_limited_throughput_tph",
     "reduce_flotation_tests",

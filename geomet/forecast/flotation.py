@@ -59,7 +59,15 @@ DEFAULT_CU_FLOTATION: dict = {
     "swelling_per_pct": 0.015,  # R∞ × exp(−Σ a_c clay_c)
     "kaolin_per_pct": 0.004,
     "illite_per_pct": 0.001,
-    "k_severity_per_idx": 0.02,  # k × exp(−b · clay_severity_idx)
+    # Pulp viscosity slows flotation: k × exp(−(b_s S + b_k K + b_i I) − b · clay_severity_idx).
+    # Each clay group has its own rate effect (smectite thickens a pulp far more than kaolinite,
+    # illite/white mica least; Zhang & Peng 2015; Ndlovu et al. 2013), so a calibration does not
+    # depend on the weights chosen for the severity index; the index term (default off) is for
+    # sites whose index weights were calibrated on their own rheology.
+    "k_swelling_per_pct": 0.02,
+    "k_kaolin_per_pct": 0.006,
+    "k_illite_per_pct": 0.0,
+    "k_severity_per_idx": 0.0,
     "head_half_pct": 0.01,  # R∞ × g/(g + g½), g the Cu head grade
     "oxide_recovery_frac": 0.15,  # acid-soluble Cu floats poorly without sulfidisation
 }
@@ -73,7 +81,10 @@ DEFAULT_AU_FLOTATION: dict = {
     "swelling_per_pct": 0.02,
     "kaolin_per_pct": 0.005,
     "illite_per_pct": 0.001,
-    "k_severity_per_idx": 0.02,
+    "k_swelling_per_pct": 0.02,
+    "k_kaolin_per_pct": 0.006,
+    "k_illite_per_pct": 0.0,
+    "k_severity_per_idx": 0.0,
     "head_half_gpt": 0.01,
     "oxide_loss_per_frac": 0.3,  # R∞ × (1 − c · oxide_ratio_frac): Au locked in iron oxides
 }
@@ -236,6 +247,44 @@ def clay_recovery_factor(
     return np.exp(-load)
 
 
+def clay_rate_factor(
+    clay_swelling_pct,
+    clay_kaolin_pct,
+    white_mica_illite_pct,
+    clay_severity_idx,
+    params: Mapping,
+):
+    """Multiplier on the flotation rate constant for clay in the pulp, in (0, 1].
+
+    Parameters
+    ----------
+    clay_swelling_pct, clay_kaolin_pct, white_mica_illite_pct : float, ndarray or Series
+        Smectite, kaolin-group and illite / white mica [wt%]; negative values count as 0.
+    clay_severity_idx : float, ndarray or Series
+        Weighted clay index [wt%-equivalent].
+    params : mapping
+        ``k_swelling_per_pct``, ``k_kaolin_per_pct``, ``k_illite_per_pct`` [1/wt%] and
+        ``k_severity_per_idx`` [1/index unit] (missing keys count as 0).
+
+    Returns
+    -------
+    float or ndarray
+        exp(−(b_s S + b_k K + b_i I + b C)).
+
+    Notes
+    -----
+    Clay-rich pulps are viscous and slow bubble-particle collection (Zhang & Peng 2015;
+    Ndlovu et al. 2013); the exponential keeps the factor positive and equals 1 without clay.
+    """
+    load = (
+        params.get("k_swelling_per_pct", 0.0) * np.maximum(clay_swelling_pct, 0.0)
+        + params.get("k_kaolin_per_pct", 0.0) * np.maximum(clay_kaolin_pct, 0.0)
+        + params.get("k_illite_per_pct", 0.0) * np.maximum(white_mica_illite_pct, 0.0)
+        + params.get("k_severity_per_idx", 0.0) * np.maximum(clay_severity_idx, 0.0)
+    )
+    return np.exp(-load)
+
+
 @cache
 def copper_fraction(formula: str) -> float:
     """Cu mass fraction of a formula [fraction] (from :mod:`geomet.minerals.formula`)."""
@@ -328,7 +377,9 @@ def rougher_copper(
     with the clay factor φ = exp(−(a_s S + a_k K + a_i I)) and the head-grade factor
     h = g / (g + g½) on the total Cu grade g (a near-constant tail grade):
 
-        R∞_m = s_R R∞⁰_m φ h,   k_m = s_k k⁰_m · exp(−b C),   R_m = kinetic(R∞_m, k_m, t)
+        R∞_m = s_R R∞⁰_m φ h,   k_m = s_k k⁰_m ψ,   R_m = kinetic(R∞_m, k_m, t)
+
+    with the clay rate factor ψ = exp(−(b_s S + b_k K + b_i I + b C)) (:func:`clay_rate_factor`)
 
     and R_Cu = (g_s Σ w_m R_m + g_ox r_ox φ h) / g. The concentrate carries the recovered copper
     minerals (mass g_s w_m / c_m with c_m the mineral's Cu fraction), recovered oxide Cu as
@@ -360,9 +411,12 @@ def rougher_copper(
     )
     with np.errstate(invalid="ignore", divide="ignore"):
         head = cu / (cu + p["head_half_pct"])
-    slow = np.exp(
-        -p["k_severity_per_idx"]
-        * np.maximum(np.asarray(clay_severity_idx, dtype=float).reshape(-1), 0.0)
+    slow = clay_rate_factor(
+        np.asarray(clay_swelling_pct, dtype=float).reshape(-1),
+        np.asarray(clay_kaolin_pct, dtype=float).reshape(-1),
+        np.asarray(white_mica_illite_pct, dtype=float).reshape(-1),
+        np.asarray(clay_severity_idx, dtype=float).reshape(-1),
+        p,
     )
     shares = copper_mineral_shares(cu_mineral_pct, n)
     common = p["r_inf_scale"] * clay * head
@@ -478,7 +532,8 @@ def au_recovery_frac(
     Notes
     -----
     R∞ = s_R R∞⁰ exp(−(a_s S + a_k K + a_i I)) (1 − c_ox · oxide_ratio) · g/(g + g½),
-    k = s_k k⁰ exp(−b C), R = kinetic(R∞, k, t). Assumed form with stated defaults.
+    k = s_k k⁰ ψ with ψ = exp(−(b_s S + b_k K + b_i I + b C)) (:func:`clay_rate_factor`),
+    R = kinetic(R∞, k, t). Assumed form with stated defaults.
 
     Examples
     --------
@@ -506,7 +561,9 @@ def au_recovery_frac(
     k = (
         p["k_scale"]
         * p["k_per_min"]
-        * np.exp(-p["k_severity_per_idx"] * np.maximum(clay_severity_idx, 0.0))
+        * clay_rate_factor(
+            clay_swelling_pct, clay_kaolin_pct, white_mica_illite_pct, clay_severity_idx, p
+        )
     )
     out = kinetic_recovery(np.asarray(r_inf), np.asarray(k), time_min, model=model, n_cells=n_cells)
     return _like(au_gpt, np.clip(out, 0.0, 1.0))

@@ -202,32 +202,39 @@ def _index(graph, periods, days, economics, mining, milp) -> BlendData:
     }
     flows: list[tuple[str, str, int]] = []
     values: list[float] = []
-    edges = ((u, v, d.get("cost_usd_t")) for u, nbrs in graph.adjacency() for v, d in nbrs.items())
-    for u, v, cost in edges:
-        if kinds[u] not in ("source", "stockpile"):
-            continue  # processor -> product edges carry no decision
-        node = node_data[u]
-        value = -(cost or 0.0)
-        value -= e.mining_cost_usd_t if kinds[u] == "source" else node.get("rehandle_usd_t", 0.0)
-        if v in proc_value:
-            value += proc_value[v][u]
-        if kinds[u] == "source":
-            first = position[node["period"]]
-            ts = range(first, first + 1) if mining == "fixed" else range(first, n_t)
-        else:
-            ts = range(n_t)
-        for t in ts:
-            flows.append((u, v, t))
-            values.append(value)
-
     in_flows: dict[tuple[str, int], list[int]] = defaultdict(list)
     out_flows: dict[tuple[str, int], list[int]] = defaultdict(list)
-    out_all: dict[str, list[int]] = defaultdict(list)
-    for i, (u, v, t) in enumerate(flows):
-        in_flows[(v, t)].append(i)
-        out_flows[(u, t)].append(i)
-        if kinds[u] == "source":
-            out_all[u].append(i)
+    out_all: dict[str, list[int]] = {}
+    fixed = mining == "fixed"
+    every_period = range(n_t)
+    for u, nbrs in graph.adjacency():
+        kind = kinds[u]
+        if kind != "source" and kind != "stockpile":
+            continue  # processor -> product edges carry no decision
+        node = node_data[u]
+        if kind == "source":
+            first = position[node["period"]]
+            ts = range(first, first + 1) if fixed else range(first, n_t)
+            own = out_all[u] = []
+            handling = e.mining_cost_usd_t
+        else:
+            ts = every_period
+            own = None
+            handling = node.get("rehandle_usd_t", 0.0)
+        for v, d in nbrs.items():
+            value = -(d.get("cost_usd_t") or 0.0)
+            value -= handling
+            if v in proc_value:
+                value += proc_value[v][u]
+            for t in ts:
+                i = len(flows)
+                flows.append((u, v, t))
+                values.append(value)
+                in_flows[(v, t)].append(i)
+                out_flows[(u, t)].append(i)
+                if own is not None:
+                    own.append(i)
+    out_all = {u: idx for u, idx in out_all.items() if idx}
     stockpiles = [n for n, k in kinds.items() if k == "stockpile"]
     inventories = [(s, t) for s in stockpiles for t in range(n_t)]
     return BlendData(

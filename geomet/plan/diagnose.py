@@ -20,8 +20,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from geomet.plan.highs import quiet_highs
 from geomet.plan.data import BlendData
+from geomet.plan.highs import quiet_highs
 from geomet.plan.limits import LIMITS
 from geomet.plan.model import RowInfo, build_blend_model
 from geomet.plan.results import values_of

@@ -16,6 +16,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
+from functools import partial
+from itertools import repeat
 
 import networkx as nx
 import numpy as np
@@ -77,6 +79,11 @@ def route_graph(nodes: Sequence[Mapping], edges: Sequence[Mapping]) -> nx.DiGrap
             continue
         attrs.setdefault("cost_usd_t", 0.0)
         edge_items.append((u, v, attrs))
+    return _assemble(node_items, edge_items, problems)
+
+
+def _assemble(node_items: list, edge_items: list, problems: list[str]) -> nx.DiGraph:
+    """The graph of (node, attributes) and (from, to, attributes) items, validated."""
     graph = nx.DiGraph()
     graph.add_nodes_from(node_items)  # batch insertion: much faster than one call per item
     graph.add_edges_from(edge_items)
@@ -257,62 +264,60 @@ def _blend_route_graph(
 ) -> nx.DiGraph:
     attrs = [c for c in (*PARCEL_ATTRIBUTES, "oxide_ratio_frac") if c in parcels.columns]
     opening = dict(stockpile_opening_t or {})
-    nodes: list[dict] = [
-        {"node": WASTE, "kind": "sink"},
-        {"node": PRODUCTS, "kind": "sink"},
-    ]
-    edges: list[dict] = []
+    ids = parcels["parcel_id"].tolist()
+    # nodes and edges as (name, attributes) / (from, to, attributes) items, in the order the
+    # record form lists them (the order fixes the model's columns)
+    nodes: list[tuple] = [(WASTE, {"kind": "sink"}), (PRODUCTS, {"kind": "sink"})]
+    free = {"cost_usd_t": 0.0}  # networkx copies edge attributes: one dict serves every edge
+    edges: list[tuple] = []
     procs = [p for p, on in (("mill", mill), ("leach", leach)) if on]
     for proc in procs:
-        own = {k: np.array(v, float) for k, v in limits.items() if k.startswith(proc + "_")}
-        if proc == "leach" and "acid_supply_t" in limits:
-            own["acid_supply_t"] = np.array(limits["acid_supply_t"], float)
-        nodes.append({"node": proc, "kind": "processor", "limits": own})
-        edges.append({"from": proc, "to": PRODUCTS})
+        nodes.append((proc, {"kind": "processor", "limits": _own_limits(limits, proc)}))
+        edges.append((proc, PRODUCTS, free))
 
-    def allowed(proc: str, oxide_ratio: float) -> bool:
+    def allowed(proc: str, oxide_ratio):
         if proc == "leach":
             return oxide_ratio >= leach_min_oxide_ratio_frac
-        return mill_max_oxide_ratio_frac is None or oxide_ratio <= mill_max_oxide_ratio_frac
+        if mill_max_oxide_ratio_frac is None:
+            return np.ones(np.shape(oxide_ratio), dtype=bool)
+        return oxide_ratio <= mill_max_oxide_ratio_frac
 
-    columns = list(parcels.columns)
-    records = [
-        dict(zip(columns, row, strict=True))
-        for row in zip(*(parcels[c].tolist() for c in columns), strict=True)
-    ]
-    stock_members: dict[str, list[dict]] = {}
-    groups = {str(k): str(v) for k, v in (stockpile_groups or {}).items()}
-
-    def group_of(rec: dict) -> str:
-        # Segregate oxide from sulfide ore of one domain when parcels carry an ore type, so a
-        # stockpile never averages leach feed into mill feed.
-        name = groups.get(str(rec["domain"]), str(rec["domain"]))
-        ore_type = rec.get("ore_type")
-        return f"{name} / {ore_type}" if isinstance(ore_type, str) and ore_type else name
-
-    unknown = sorted(set(groups) - {str(d) for d in parcels["domain"].unique()})
-    if unknown:
-        message = f"stockpile_groups names domain(s) {unknown} that no parcel has"
-        raise InputDataError(message)
-
-    for rec in records:
-        node = rec["parcel_id"]
-        nodes.append(
-            {"node": node, "kind": "source", **{k: rec[k] for k in rec if k != "parcel_id"}}
-        )
-        ox = float(rec.get("oxide_ratio_frac", 0.0))
-        for proc in procs:
-            if allowed(proc, ox):
-                edges.append({"from": node, "to": proc})
-        if waste_max_cu_pct is None or rec["cu_pct"] <= waste_max_cu_pct:
-            edges.append({"from": node, "to": WASTE})
-        if stockpiles and rec["cu_pct"] >= stockpile_min_cu_pct:
-            stock_members.setdefault(group_of(rec), []).append(rec)
+    keys = ["kind", *(c for c in parcels.columns if c != "parcel_id")]
+    values = [parcels[c].tolist() for c in keys[1:]]
+    nodes.extend(
+        zip(ids, map(dict, map(partial(zip, keys), zip(repeat("source"), *values))), strict=True)
+    )
+    n = len(ids)
+    ox = (
+        parcels["oxide_ratio_frac"].to_numpy(dtype=float)
+        if "oxide_ratio_frac" in parcels.columns
+        else np.zeros(n)
+    )
+    cu = parcels["cu_pct"].to_numpy(dtype=float)
+    to_proc = [allowed(p, ox).tolist() for p in procs]
+    to_waste = [True] * n if waste_max_cu_pct is None else (cu <= waste_max_cu_pct).tolist()
+    for i, node in enumerate(ids):
+        for proc, ok in zip(procs, to_proc, strict=True):
+            if ok[i]:
+                edges.append((node, proc, free))
+        if to_waste[i]:
+            edges.append((node, WASTE, free))
 
     if stockpiles:
-        by_domain: dict[str, list[dict]] = {}
-        for rec in records:
-            by_domain.setdefault(group_of(rec), []).append(rec)
+        groups = {str(k): str(v) for k, v in (stockpile_groups or {}).items()}
+        unknown = sorted(set(groups) - {str(d) for d in parcels["domain"].unique()})
+        if unknown:
+            message = f"stockpile_groups names domain(s) {unknown} that no parcel has"
+            raise InputDataError(message)
+        group = _groups_of(parcels, groups)
+        by_domain: dict[str, list[int]] = {}
+        for i, g in enumerate(group):
+            by_domain.setdefault(g, []).append(i)
+        may_stock = (cu >= stockpile_min_cu_pct).tolist()
+        stock_members: dict[str, list[int]] = {}
+        for i, g in enumerate(group):
+            if may_stock[i]:
+                stock_members.setdefault(g, []).append(i)
         unknown = sorted(set(opening) - set(by_domain))
         if unknown:
             message = (
@@ -320,52 +325,81 @@ def _blend_route_graph(
                 f"named by domain or stockpile group: {sorted(by_domain)[:20]}"
             )
             raise InputDataError(message)
+        arrays = {
+            c: parcels[c].to_numpy(dtype=float)
+            for c in {*attrs, "tonnes_t", "cu_pct"} - {"oxide_ratio_frac"}
+        }
+        cost = {"cost_usd_t": float(stockpile_cost_usd_t)}
         for domain in sorted(set(stock_members) | set(opening)):
-            members = stock_members.get(domain) or by_domain[domain]
+            members = np.asarray(stock_members.get(domain) or by_domain[domain], dtype=np.int64)
             node = f"stockpile:{domain}"
-            values = _stockpile_attributes(members, attrs)
-            outs = [p for p in procs if allowed(p, values.get("oxide_ratio_frac", 0.0))]
+            averages = _stockpile_attributes({c: a[members] for c, a in arrays.items()}, attrs)
+            outs = [p for p in procs if allowed(p, averages.get("oxide_ratio_frac", 0.0))]
             if not outs:
                 continue  # a stockpile no processor may reclaim from would only hold ore
             nodes.append(
-                {
-                    "node": node,
-                    "kind": "stockpile",
-                    "domain": domain,
-                    "capacity_t": float(stockpile_capacity_t),
-                    "opening_t": float(opening.get(domain, 0.0)),
-                    "rehandle_usd_t": float(rehandle_usd_t),
-                    **values,
-                }
-            )
-            edges.extend({"from": node, "to": p} for p in outs)
-            for rec in stock_members.get(domain, []):
-                edges.append(
+                (
+                    node,
                     {
-                        "from": rec["parcel_id"],
-                        "to": node,
-                        "cost_usd_t": float(stockpile_cost_usd_t),
-                    }
+                        "kind": "stockpile",
+                        "domain": domain,
+                        "capacity_t": float(stockpile_capacity_t),
+                        "opening_t": float(opening.get(domain, 0.0)),
+                        "rehandle_usd_t": float(rehandle_usd_t),
+                        **averages,
+                    },
                 )
-    return route_graph(nodes, edges)
+            )
+            edges.extend((node, p, free) for p in outs)
+            edges.extend((ids[i], node, cost) for i in stock_members.get(domain, []))
+    seen: set = set()
+    problems = []
+    for node, _attrs in nodes:
+        if node in seen:
+            problems.append(f"node {node!r} is defined twice")
+        seen.add(node)
+    return _assemble(nodes, edges, problems)
 
 
-def _stockpile_attributes(members: list[dict], attrs: Sequence[str]) -> dict[str, float]:
-    """Tonnage-weighted attributes of a domain stockpile (recoveries weighted by metal)."""
+def _own_limits(limits: Mapping[str, np.ndarray], proc: str) -> dict[str, np.ndarray]:
+    """The limits of one processor (acid supply goes to the leach pad)."""
+    own = {k: np.array(v, float) for k, v in limits.items() if k.startswith(proc + "_")}
+    if proc == "leach" and "acid_supply_t" in limits:
+        own["acid_supply_t"] = np.array(limits["acid_supply_t"], float)
+    return own
 
-    def column(name):
-        return np.fromiter((m.get(name, np.nan) for m in members), dtype=float, count=len(members))
 
-    tonnes = column("tonnes_t")
-    weights = {"tonnes": tonnes, "cu": tonnes * column("cu_pct")}
+def _groups_of(parcels: pd.DataFrame, groups: Mapping[str, str]) -> list[str]:
+    """Stockpile of each parcel: its domain (or the domain's group), split by ore type.
+
+    Oxide and sulfide ore of one domain go to separate stockpiles when parcels carry an ore
+    type, so a stockpile never averages leach feed into mill feed.
+    """
+    domains = [str(d) for d in parcels["domain"].tolist()]
+    names = [groups.get(d, d) for d in domains]
+    if "ore_type" not in parcels.columns:
+        return names
+    return [
+        f"{name} / {ore}" if isinstance(ore, str) and ore else name
+        for name, ore in zip(names, parcels["ore_type"].tolist(), strict=True)
+    ]
+
+
+def _stockpile_attributes(columns: Mapping[str, np.ndarray], attrs: Sequence[str]) -> dict:
+    """Tonnage-weighted attributes of a domain stockpile (recoveries weighted by metal).
+
+    ``columns`` holds each attribute over the stockpile's member parcels, in parcel order.
+    """
+    tonnes = columns["tonnes_t"]
+    weights = {"tonnes": tonnes, "cu": tonnes * columns["cu_pct"]}
     if "au_gpt" in attrs:
-        weights["au"] = tonnes * column("au_gpt")
+        weights["au"] = tonnes * columns["au_gpt"]
     out = {}
     for col in attrs:
         if col == "oxide_ratio_frac":
             continue
         w = weights.get(PARCEL_ATTRIBUTES.get(col, "tonnes"), tonnes)
-        out[col] = weighted_mean(column(col), w if w.sum() > 0 else tonnes)
+        out[col] = weighted_mean(columns[col], w if w.sum() > 0 else tonnes)
     if "cu_asol_pct" in out:
         out["oxide_ratio_frac"] = out["cu_asol_pct"] / out["cu_pct"] if out["cu_pct"] > 0 else 0.0
     return out

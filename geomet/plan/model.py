@@ -1,8 +1,10 @@
 """The blend-scheduling model in Pyomo, built by small ``add_*`` functions from :class:`BlendData`.
 
 Building never calls a solver (see :mod:`geomet.plan.solve`). Every row is a Pyomo
-``LinearExpression`` over plain float lists, and the build runs with the garbage collector paused,
-which keeps the build close to the cost of assembling the sparse matrix directly.
+``LinearExpression`` over plain float lists; terms whose coefficient is one are the bare variables
+(no monomial object per term), and the build runs with the garbage collector paused. Rows of this
+form are what :func:`geomet.plan.standard_form.compile_linear` reads without Pyomo's expression
+walker.
 
 Variables
     ``flow[j]`` tonnes on route ``data.flows[j]`` = (from, to, period) [t];
@@ -25,13 +27,14 @@ feasible plan then always exists and the slacks say which limits must move, wher
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 from typing import NamedTuple
 
 import numpy as np
 import pyomo.environ as pyo
 from pyomo.common.gc_manager import PauseGC
-from pyomo.core.expr.numeric_expr import LinearExpression
+from pyomo.core.expr.numeric_expr import LinearExpression, MonomialTermExpression
 
 from geomet.plan.data import BlendData
 from geomet.plan.limits import LIMITS
@@ -171,15 +174,23 @@ def add_mine_balance(bm: BlendModel) -> None:
     """Tonnes leaving each parcel: equal to its tonnes (fixed) or at most its tonnes (flexible)."""
     data, flow = bm.data, bm._flow
     bodies, infos = [], []
+    position = {p: i for i, p in enumerate(data.periods)}
+    fixed = data.mining == "fixed"
+    sense = "equal" if fixed else "max"
+    out_all = data.out_flows_all
     for node in data.nodes_of("source"):
-        idx = data.out_flows_all.get(node, [])
-        tonnes = data.attr(node, "tonnes_t")
-        t0 = data.periods.index(int(data.node_data[node]["period"]))
-        lb = tonnes if data.mining == "fixed" else None
-        bodies.append((None, [flow[j] for j in idx], lb, tonnes))
-        infos.append(
-            RowInfo("mined_t", node, t0, "equal" if lb is not None else "max", tonnes, "t", "sum")
+        attrs = data.node_data[node]
+        tonnes = float(attrs.get("tonnes_t", 0.0))
+        t0 = position[int(attrs["period"])]
+        bodies.append(
+            (
+                None,
+                list(map(flow.__getitem__, out_all.get(node, ()))),
+                tonnes if fixed else None,
+                tonnes,
+            )
         )
+        infos.append(RowInfo("mined_t", node, t0, sense, tonnes, "t", "sum"))
     # flexible mining: "at most the parcel" is a physical bound, never a limit to relax
     _soft(bm, "mine_balance", bodies, infos, soft=data.mining == "fixed")
 
@@ -187,27 +198,24 @@ def add_mine_balance(bm: BlendModel) -> None:
 def add_stockpile_balance(bm: BlendModel) -> None:
     """inventory(t) - inventory(t-1) - in(t) + out(t) = opening (t = first) or 0."""
     data, flow, inv = bm.data, bm._flow, bm._inv
+    in_flows, out_flows, inv_index = data.in_flows, data.out_flows, data.inventory_index
     rows = []
     for k, (node, t) in enumerate(data.inventories):
-        coefs = [1.0]
-        vars_ = [inv[k]]
+        # terms with coefficient one are bare variables, the others (coefficient, variable)
+        # monomials: both are valid LinearExpression arguments
+        args = [inv[k]]
         rhs = 0.0
         if t == 0:
             rhs = float(data.node_data[node].get("opening_t", 0.0))
         else:
-            coefs.append(-1.0)
-            vars_.append(inv[data.inventory_index[(node, t - 1)]])
-        for j in data.in_flows.get((node, t), []):
-            coefs.append(-1.0)
-            vars_.append(flow[j])
-        for j in data.out_flows.get((node, t), []):
-            coefs.append(1.0)
-            vars_.append(flow[j])
-        rows.append((coefs, vars_, rhs))
+            args.append(MonomialTermExpression((-1.0, inv[inv_index[(node, t - 1)]])))
+        args.extend(MonomialTermExpression((-1.0, flow[j])) for j in in_flows.get((node, t), ()))
+        args.extend(map(flow.__getitem__, out_flows.get((node, t), ())))
+        rows.append((args, rhs))
 
     def rule(_m, k):
-        coefs, vars_, rhs = rows[k]
-        return LinearExpression(constant=0.0, linear_coefs=coefs, linear_vars=vars_) == rhs
+        args, rhs = rows[k]
+        return LinearExpression(args) == rhs
 
     bm.model.stock_balance = pyo.Constraint(range(len(rows)), rule=rule)
 
@@ -217,8 +225,8 @@ def add_stockpile_capacity(bm: BlendModel) -> None:
     data, inv = bm.data, bm._inv
     bodies, infos = [], []
     for k, (node, t) in enumerate(data.inventories):
-        cap = float(data.node_data[node].get("capacity_t", np.inf))
-        if np.isfinite(cap):
+        cap = float(data.node_data[node].get("capacity_t", math.inf))
+        if math.isfinite(cap):
             bodies.append((None, [inv[k]], None, cap))
             infos.append(RowInfo("stockpile_capacity_t", node, t, "max", cap, "t", "sum"))
     _soft(bm, "stock_capacity", bodies, infos)
@@ -254,7 +262,7 @@ def add_plant_limits(bm: BlendModel) -> None:
                     a = data.flow_attr(spec.attribute)[idx] * spec.scale
                 if spec.form == "blend":
                     coefs, bound = (a - limit).tolist(), 0.0
-                elif spec.attribute is None and spec.scale == 1.0:
+                elif spec.attribute is None:
                     coefs, bound = None, float(limit)  # tonnes: every coefficient is one
                 else:
                     coefs, bound = a.tolist(), float(limit)

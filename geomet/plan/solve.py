@@ -19,12 +19,11 @@ import time
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-import pyomo.environ as pyo
 import scipy.sparse as sp
 from pyomo.common.errors import InfeasibleConstraintException
 
-from geomet.plan.highs import quiet_highs
 from geomet.errors import SolverError
+from geomet.plan.highs import quiet_highs
 from geomet.plan.model import BlendModel
 from geomet.plan.standard_form import compile_linear
 
@@ -156,7 +155,7 @@ def compile_blend_model(bm: BlendModel) -> CompiledModel:
         col_upper[cols] = 1.0
         if len(m.fed) and m.fed[0].is_integer():
             integrality[cols] = 1
-    mult = np.fromiter((r[1] for r in info.rows), dtype=np.int8, count=len(info.rows))
+    mult = form.row_mult
     rhs = np.asarray(info.rhs, float)
     row_lower = np.where(mult == 1, -np.inf, rhs)
     row_upper = np.where(mult == -1, np.inf, rhs)
@@ -316,7 +315,6 @@ def _row_ranging(h) -> tuple[np.ndarray, np.ndarray] | None:
 
 
 def _highs(cm: CompiledModel, integrality, col_lower, col_upper, options: SolveOptions):
-    import highspy
 
     h = quiet_highs()
     h.setOptionValue("output_flag", False)

@@ -1,17 +1,19 @@
-"""Compile a linear Pyomo model to sparse matrices, fast, for models made of ``LinearExpression`` rows.
+"""Compile a linear Pyomo model made of ``LinearExpression`` rows to sparse matrices, fast.
 
 Pyomo's ``LinearStandardFormCompiler`` walks every constraint body with its general expression
-visitor, one Python call per term; on the blend model that is most of the hand-over time.
-Every row geomet builds is a ``LinearExpression`` of (float coefficient, variable) monomials, so
-the matrix can be read off the expression objects directly: the terms of all rows are gathered
-in one pass and the coefficients and columns are converted to arrays in C (``map`` /
-``numpy.fromiter``), without a per-term Python frame.
+visitor, one Python call per term; on the blend model that was most of the hand-over time.
+Every row geomet builds is a ``LinearExpression`` whose terms are (float coefficient, variable)
+monomials or bare variables (coefficient one), so the matrix can be read off the expression
+objects directly: the terms of all rows are gathered in one pass, coefficients are converted to
+arrays in C (``map`` / ``numpy.fromiter``) and variables are matched to columns by object
+identity with a sorted-array search, without a per-term Python frame.
 
 :func:`compile_linear` returns exactly what ``LinearStandardFormCompiler().write(model,
 mixed_form=True, set_sense=minimize)`` returns (same rows, row order, columns, column order,
-coefficients and right-hand sides; checked in ``tests/test_plan_solve.py``), and hands the model
-to that compiler unchanged whenever it holds anything outside the fast path (sub-blocks, Params,
-Expressions, fixed variables, non-linear-expression bodies, non-numeric coefficients).
+coefficients and right-hand sides; checked in ``tests/test_plan_standard_form.py``), and hands
+the model to that compiler unchanged whenever it holds anything outside the fast path
+(sub-blocks, Params, Expressions, fixed or foreign variables, inactive rows, bodies that are not
+a ``LinearExpression``, non-numeric coefficients or bounds, non-integer row indices).
 
 Pyomo's rules reproduced here:
 
@@ -31,15 +33,16 @@ from __future__ import annotations
 import itertools
 from dataclasses import dataclass, field
 from functools import partial
-from operator import attrgetter, is_not, itemgetter
+from operator import attrgetter, is_, is_not, itemgetter, methodcaller, not_
 
 import numpy as np
 import pyomo.environ as pyo
 import scipy.sparse as sp
-from pyomo.common.gc_manager import PauseGC
 from pyomo.common.errors import InfeasibleConstraintException
+from pyomo.common.gc_manager import PauseGC
 from pyomo.common.numeric_types import native_numeric_types, native_types
 from pyomo.core.base.objective import ObjectiveSense
+from pyomo.core.base.var import ScalarVar, VarData
 from pyomo.core.expr.numeric_expr import LinearExpression, MonomialTermExpression
 from pyomo.repn.plugins.standard_form import (
     LinearStandardFormCompiler,
@@ -51,6 +54,13 @@ _ARGS = attrgetter("_args_")
 _FIRST = itemgetter(0)
 _SECOND = itemgetter(1)
 _IS_NOT_NONE = partial(is_not, None)
+_MONO = MonomialTermExpression
+_THIRD = itemgetter(2)
+_FIXED = attrgetter("fixed")
+_ACTIVE = attrgetter("active")
+_ARGS_PROPERTY = attrgetter("args")
+_BOUNDED = methodcaller("to_bounded_expression")
+_VAR_TYPES = frozenset({VarData, ScalarVar})
 _ALLOWED = (pyo.Var, pyo.Constraint, pyo.Objective, pyo.Set, pyo.RangeSet)
 
 
@@ -70,6 +80,8 @@ class LinearForm:
         Local name of the constraint component of each row.
     row_index : ndarray of int
         Index of each row's constraint within its component (-1 when not an integer).
+    row_mult : ndarray of int8
+        Each row's ``bound_type`` (0 equality, 1 upper bound, -1 lower bound).
     col_of : dict
         Variable component name -> column of each of its members in index order (-1: the
         variable holds no non-zero and was dropped).
@@ -80,6 +92,7 @@ class LinearForm:
     info: LinearStandardFormInfo
     row_family: list[str]
     row_index: np.ndarray
+    row_mult: np.ndarray
     col_of: dict[str, np.ndarray] = field(default_factory=dict)
     fast: bool = True
 
@@ -126,7 +139,8 @@ def pyomo_compile(model: pyo.ConcreteModel) -> LinearForm:
     index = np.fromiter(
         (_int_index(r[0].index()) for r in info.rows), dtype=np.int64, count=len(info.rows)
     )
-    return LinearForm(info, family, index, col_of, fast=False)
+    mult = np.fromiter((r[1] for r in info.rows), dtype=np.int8, count=len(info.rows))
+    return LinearForm(info, family, index, mult, col_of, fast=False)
 
 
 def _int_index(index) -> int:
@@ -163,9 +177,9 @@ def _fast(model) -> LinearForm:
     var_data = [list(comp.values()) for comp in var_comps]
     sizes = np.array([len(v) for v in var_data], dtype=np.int64)
     all_vars = list(itertools.chain.from_iterable(var_data))
-    if any(v.fixed for v in all_vars):
+    if any(map(_FIXED, all_vars)):
         raise _NotFast
-    slot = {id(v): i for i, v in enumerate(all_vars)}
+    slot = _SlotTable(all_vars)
     comp_start = np.concatenate(([0], np.cumsum(sizes)))
 
     obj = objectives[0]
@@ -173,22 +187,25 @@ def _fast(model) -> LinearForm:
     # rows: one entry per constraint, in declaration and index order
     cons, lbs, ubs, row_terms, names, counts, indices = [], [], [], [], [], [], []
     for comp in model.component_objects(pyo.Constraint, active=True, descend_into=False):
-        before = len(cons)
-        for idx, con in comp.items():
-            if not con.active:
-                continue
-            if idx.__class__ is not int:
-                raise _NotFast
-            lb, body, ub = con.to_bounded_expression()
-            if lb.__class__ not in native_types or ub.__class__ not in native_types:
-                raise _NotFast
-            cons.append(con)
-            lbs.append(lb)
-            ubs.append(ub)
-            indices.append(idx)
-            row_terms.append(_terms(body))
+        keys = list(comp.keys())
+        members = list(comp.values())
+        if not all(map(_ACTIVE, members)) or not set(map(type, keys)) <= {int}:
+            raise _NotFast
+        bounded = list(map(_BOUNDED, members))
+        lb_c = list(map(_FIRST, bounded))
+        ub_c = list(map(_THIRD, bounded))
+        bodies = list(map(_SECOND, bounded))
+        if not (set(map(type, lb_c)) | set(map(type, ub_c))) <= native_types:
+            raise _NotFast  # bounds that are expressions: leave them to Pyomo
+        if not set(map(type, bodies)) <= {LinearExpression}:
+            raise _NotFast
+        cons.extend(members)
+        lbs.extend(lb_c)
+        ubs.extend(ub_c)
+        indices.extend(keys)
+        row_terms.extend(map(_ARGS_PROPERTY, bodies))
         names.append(comp.local_name)
-        counts.append(len(cons) - before)
+        counts.append(len(members))
     n_con = len(cons)
     lengths = np.fromiter(map(len, row_terms), dtype=np.int64, count=n_con)
     coef, slots, const = _read(list(itertools.chain.from_iterable(row_terms)), slot)
@@ -259,38 +276,85 @@ def _fast(model) -> LinearForm:
     col = np.where(col_of_slot >= 0, renumber[np.maximum(col_of_slot, 0)], -1)
     col = np.where((col_of_slot >= 0) & active[np.maximum(col_of_slot, 0)], col, -1)
     col_of = {
-        comp.local_name: col[comp_start[k] : comp_start[k + 1]]
-        for k, comp in enumerate(var_comps)
+        comp.local_name: col[comp_start[k] : comp_start[k + 1]] for k, comp in enumerate(var_comps)
     }
     family = np.repeat(np.array(names, dtype=object), counts)[take].tolist()
     index = np.asarray(indices, dtype=np.int64)[take]
     info = LinearStandardFormInfo(
         c, np.array([sign * obj_const]), A, rhs.tolist(), rows, columns, objectives, []
     )
-    return LinearForm(info, family, index, col_of)
+    return LinearForm(info, family, index, mult.astype(np.int8), col_of)
 
 
-def _read(terms: list, slot: dict) -> tuple[np.ndarray, np.ndarray, float]:
-    """Coefficients, variable slots and summed constant of a list of linear-expression args."""
+def _read(terms: list, slot: _SlotTable) -> tuple[np.ndarray, np.ndarray, float]:
+    """Coefficients, variable slots and summed constant of a list of linear-expression args.
+
+    The args may be monomials (coefficient, variable), bare variables (coefficient one) and
+    numbers (the constant); anything else raises :class:`_NotFast`.
+    """
     if not terms:
         return np.zeros(0), np.zeros(0, dtype=np.int64), 0.0
     const = 0.0
     kinds = set(map(type, terms))
-    if kinds - {MonomialTermExpression}:
+    if not kinds <= {MonomialTermExpression} | _VAR_TYPES:
         numbers = [t for t in terms if t.__class__ in native_numeric_types]
-        if len(numbers) + sum(t.__class__ is MonomialTermExpression for t in terms) != len(terms):
+        if any(not (k in native_numeric_types or k in _VAR_TYPES) for k in kinds - {_MONO}):
             raise _NotFast
         const = float(sum(numbers))
-        terms = [t for t in terms if t.__class__ is MonomialTermExpression]
+        terms = [t for t in terms if t.__class__ not in native_numeric_types]
         if not terms:
             return np.zeros(0), np.zeros(0, dtype=np.int64), const
-    pairs = list(map(_ARGS, terms))
-    coefs = list(map(_FIRST, pairs))  # (never zip(*pairs): quadratic in the number of terms)
-    vars_ = list(map(_SECOND, pairs))
+        kinds = set(map(type, terms))
+    n = len(terms)
+    if kinds == {_MONO}:
+        pairs = list(map(_ARGS, terms))
+        coefs = list(map(_FIRST, pairs))  # (never zip(*pairs): quadratic in the number of terms)
+        vars_ = list(map(_SECOND, pairs))
+        coef = _coefficients(coefs)
+    elif _MONO not in kinds:
+        vars_, coef = terms, np.ones(n)
+    else:
+        mono = list(map(is_, map(type, terms), itertools.repeat(_MONO)))
+        bare = list(map(not_, mono))
+        pairs = list(map(_ARGS, itertools.compress(terms, mono)))
+        is_mono = np.array(mono, dtype=bool)
+        coef = np.ones(n)
+        coef[is_mono] = _coefficients(list(map(_FIRST, pairs)))
+        slots = np.empty(n, dtype=np.int64)
+        slots[is_mono] = _slots(map(_SECOND, pairs), slot, len(pairs))
+        slots[~is_mono] = _slots(itertools.compress(terms, bare), slot, n - len(pairs))
+        return coef, slots, const
+    return coef, _slots(vars_, slot, n), const
+
+
+class _SlotTable:
+    """Position of a variable among the model's variables, looked up by object identity.
+
+    Identities are compared as integers in numpy (sorted ids and a binary search): unlike a
+    dict lookup this never touches the variable objects themselves, which on large models is
+    what costs (cache misses), not the search.
+    """
+
+    def __init__(self, variables: list):
+        ids = np.fromiter(map(id, variables), np.uint64, len(variables))
+        self.order = np.argsort(ids, kind="stable")
+        self.ids = ids[self.order]
+
+    def lookup(self, vars_, n: int) -> np.ndarray:
+        wanted = np.fromiter(map(id, vars_), np.uint64, n)
+        pos = np.searchsorted(self.ids, wanted)
+        pos[pos == len(self.ids)] = 0
+        if len(wanted) and (not len(self.ids) or (self.ids[pos] != wanted).any()):
+            raise _NotFast  # a variable of another block
+        return self.order[pos]
+
+
+def _slots(vars_, slot: _SlotTable, n: int) -> np.ndarray:
+    """Position of each variable among the model's variables."""
+    return slot.lookup(vars_, n)
+
+
+def _coefficients(coefs: list) -> np.ndarray:
     if not set(map(type, coefs)) <= native_numeric_types:
-        raise _NotFast
-    try:
-        slots = np.fromiter(map(slot.__getitem__, map(id, vars_)), np.int64, len(vars_))
-    except KeyError:
-        raise _NotFast from None  # a variable of another block
-    return np.fromiter(coefs, float, len(coefs)), slots, const
+        raise _NotFast  # Params or expressions as coefficients: leave them to Pyomo
+    return np.fromiter(coefs, float, len(coefs))

@@ -17,6 +17,7 @@ from geomet.forecast.apply import (
     domain_forecasts,
 )
 from geomet.forecast.calibration import RESPONSES, fit_all, model_to_json
+from geomet.forecast.censored import background_ratio_frac, oxide_cu_below_detection
 from geomet.forecast.inputs import REQUIRED_COLUMNS, resolve_inputs
 from geomet.forecast.join import overlap_join
 from geomet.forecast.testwork import reduce_flotation_tests
@@ -133,6 +134,78 @@ class ForecastOptions(StepOptions):
     use_testwork_head_grade: bool = Field(
         True, description="Use the test's measured feed Cu and Au in place of the composite assays."
     )
+    cu_asol_below_detection: Literal["background_ratio", "as_read"] = Field(
+        "background_ratio",
+        description="Acid-soluble Cu below detection in the oxide ratio of the forecasts: "
+        "'background_ratio' re-reads each below-detection assay interval as the sulfide-ore "
+        "acid-soluble share times its Cu, capped at the limit (half the Cu where Cu is below "
+        "the limit), then re-averages testwork samples and composites from the assays; "
+        "'as_read' keeps the value substituted when reading (e.g. half the limit). Needs the "
+        "assays table with cu_asol_pct_censored and cu_asol_pct_detection_limit.",
+    )
+    cu_asol_background_ratio_frac: float | None = Field(
+        None,
+        ge=0,
+        le=1,
+        description="Acid-soluble share of sulfide-ore Cu [fraction] for 'background_ratio'; "
+        "empty: the 10th percentile of the detected CuAS/Cu ratios.",
+    )
+
+
+_CENSOR_COLUMNS = ("cu_pct", "cu_asol_pct", "cu_asol_pct_censored", "cu_asol_pct_detection_limit")
+
+
+def _oxide_intervals(assays: pd.DataFrame | None, options: ForecastOptions):
+    """Assay intervals with CuAS re-read below detection, and the background ratio used.
+
+    None when the option is 'as_read' or the assays lack the censoring columns.
+    """
+    if options.cu_asol_below_detection == "as_read" or assays is None:
+        return None, None
+    if not all(c in assays.columns for c in ("hole_id", "from_m", "to_m", *_CENSOR_COLUMNS)):
+        return None, None
+    a = assays[["hole_id", "from_m", "to_m", *_CENSOR_COLUMNS]].copy()
+    censored = a["cu_asol_pct_censored"].fillna(False).to_numpy(dtype=bool)
+    ratio = options.cu_asol_background_ratio_frac
+    if ratio is None:
+        ratio = background_ratio_frac(a["cu_asol_pct"], a["cu_pct"], censored)
+    a["cu_asol_pct"] = oxide_cu_below_detection(
+        a["cu_asol_pct"],
+        a["cu_pct"],
+        censored,
+        a["cu_asol_pct_detection_limit"],
+        background_ratio_frac=ratio,
+    )
+    return a[["hole_id", "from_m", "to_m", "cu_pct", "cu_asol_pct"]], float(ratio)
+
+
+def _with_oxide(table: pd.DataFrame, intervals: pd.DataFrame) -> pd.DataFrame:
+    """``table`` with the oxide ratio re-averaged from assay ``intervals`` (CuAS / Cu of the
+    covered intervals) and cu_asol_pct = ratio × the table's cu_pct.
+
+    Rows the intervals do not cover keep their values.
+    """
+    if not len(table):
+        return table
+    joined = overlap_join(table, intervals, ["cu_pct", "cu_asol_pct"], min_overlap_frac=0.5)
+    out = table.copy()
+    asol = joined["cu_asol_pct"].to_numpy(dtype=float)
+    cu_assay = joined["cu_pct"].to_numpy(dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        ratio = np.clip(np.where(cu_assay > 0, asol / cu_assay, np.nan), 0.0, 1.0)
+    # The share of oxide Cu comes from the assays; the Cu it applies to is the table's own
+    # (for testwork, the test's head assay when use_testwork_head_grade).
+    cu = out["cu_pct"].to_numpy(dtype=float)
+    have = ~np.isnan(ratio)
+    if "cu_asol_pct" in out:
+        out["cu_asol_pct"] = np.where(have, ratio * cu, out["cu_asol_pct"].to_numpy(dtype=float))
+    else:
+        out["cu_asol_pct"] = ratio * cu
+    if "oxide_ratio_frac" in out:
+        out["oxide_ratio_frac"] = np.where(have, ratio, out["oxide_ratio_frac"].to_numpy(float))
+    else:
+        out["oxide_ratio_frac"] = ratio
+    return out
 
 
 def _join_testwork(testwork: pd.DataFrame, domained: pd.DataFrame, options: ForecastOptions):
@@ -147,6 +220,13 @@ def _join_testwork(testwork: pd.DataFrame, domained: pd.DataFrame, options: Fore
     carry = [c for c in wanted if c not in own]
     joined = overlap_join(testwork, domained, carry, min_overlap_frac=options.min_overlap_frac)
     if options.use_testwork_head_grade:
+        if {"feed_cu_pct", "cu_pct", "cu_asol_pct"} <= set(joined.columns):
+            # Keep the composites' oxide ratio on the test's head grade: CuAS scales with Cu.
+            with np.errstate(invalid="ignore", divide="ignore"):
+                ratio = joined["cu_asol_pct"] / joined["cu_pct"].where(joined["cu_pct"] > 0)
+            head = joined["feed_cu_pct"]
+            scaled = (ratio.clip(0.0, 1.0) * head).where(head.notna() & ratio.notna())
+            joined["cu_asol_pct"] = scaled.where(scaled.notna(), joined["cu_asol_pct"])
         for head, col in (("feed_cu_pct", "cu_pct"), ("feed_au_gpt", "au_gpt")):
             if head in joined.columns and col in joined.columns:
                 joined[col] = joined[head].where(joined[head].notna(), joined[col])
@@ -157,7 +237,7 @@ def _join_testwork(testwork: pd.DataFrame, domained: pd.DataFrame, options: Fore
     "forecast",
     options=ForecastOptions,
     needs=("domained", "testwork"),
-    optional_needs=("blocks_domained",),
+    optional_needs=("blocks_domained", "assays"),
     produces={
         "calibration_report": "Per response: tests used, cross-validated (by hole) error of the "
         "default and calibrated models, and interval coverage.",
@@ -205,6 +285,15 @@ def forecast_step(ctx: StepContext, options: ForecastOptions) -> dict[str, pd.Da
                 "than 5 points from the two-product recovery of their assays."
             )
     joined = _join_testwork(reduced, domained, options)
+    oxide_intervals, bg_ratio = _oxide_intervals(ctx.tables.get("assays"), options)
+    model_domained = domained
+    if oxide_intervals is not None:
+        joined = _with_oxide(joined, oxide_intervals)
+        model_domained = _with_oxide(domained, oxide_intervals)
+        ctx.note(
+            "forecast: acid-soluble Cu below detection re-read for the oxide ratio as "
+            f"{bg_ratio:.4g} × Cu (capped at the limit; half the Cu where Cu is below it)."
+        )
     covered = joined["overlap_frac"] >= options.min_overlap_frac
     if not covered.all():
         ctx.note(
@@ -256,7 +345,10 @@ def forecast_step(ctx: StepContext, options: ForecastOptions) -> dict[str, pd.Da
             f"forecast: no testwork for {missing}; their stated defaults are used, "
             "without intervals."
         )
-    composite_forecasts = add_forecasts(domained, models, settings, where="domained")
+    composite_forecasts = add_forecasts(model_domained, models, settings, where="domained")
+    for col in ("cu_asol_pct", "oxide_ratio_frac"):  # report the composites' own assays
+        if col in domained.columns:
+            composite_forecasts[col] = domained[col].to_numpy()
     if blocks is not None and len(blocks):
         block_forecasts = add_forecasts(blocks, models, settings, where="blocks_domained")
         by_domain = domain_forecasts(
