@@ -36,6 +36,10 @@ class FlagRule:
         ``above``: a value at or over the threshold flags; ``below``: at or under it flags.
     description : str
         Plain-words meaning, shown in the look-ahead table.
+    scope_column, scope_max : str and float, optional
+        Apply the rule only to blocks whose ``scope_column`` is at most ``scope_max`` (NaN counts
+        as in scope; a table without the column is all in scope). The default low-recovery flag
+        uses it to look at mill (sulfide) ore only, not at oxide ore bound for the leach pad.
     """
 
     flag: str
@@ -44,6 +48,8 @@ class FlagRule:
     alert: float
     direction: str = "above"
     description: str = ""
+    scope_column: str | None = None
+    scope_max: float | None = None
 
     def __post_init__(self):
         if self.direction not in DIRECTIONS:
@@ -115,7 +121,14 @@ DEFAULT_FLAG_RULES: tuple[FlagRule, ...] = (
         "Bond ball-mill work index: throughput limited by grinding power.",
     ),
     FlagRule(
-        "low_recovery", "cu_recovery_frac", 0.85, 0.75, "below", "Forecast rougher Cu recovery."
+        "low_recovery",
+        "cu_recovery_frac",
+        0.85,
+        0.75,
+        "below",
+        "Forecast rougher Cu recovery of mill (sulfide) ore: oxide ratio at most 0.5.",
+        scope_column="oxide_ratio_frac",
+        scope_max=0.5,
     ),
 )
 
@@ -135,6 +148,22 @@ def flag_level_codes(values, rule: FlagRule) -> np.ndarray:
     else:
         watch, alert = v <= rule.watch, v <= rule.alert
     return watch.astype(np.int8) + alert.astype(np.int8)
+
+
+def rule_codes(blocks: pd.DataFrame, rule: FlagRule, rows: np.ndarray | None = None) -> np.ndarray:
+    """:func:`flag_level_codes` of ``rule`` on ``blocks`` (optionally only ``rows``), zero outside
+    the rule's scope."""
+    values = blocks[rule.column].to_numpy(dtype=float)
+    if rows is not None:
+        values = values[rows]
+    codes = flag_level_codes(values, rule)
+    if rule.scope_column is not None and rule.scope_max is not None:
+        if rule.scope_column in blocks.columns:
+            scope = blocks[rule.scope_column].to_numpy(dtype=float)
+            if rows is not None:
+                scope = scope[rows]
+            codes[scope > rule.scope_max] = 0  # NaN compares False: stays in scope
+    return codes
 
 
 def _check_rules(rules: Sequence[FlagRule]) -> None:
@@ -197,7 +226,7 @@ def flag_blocks(
     rows, rule_idx, codes_kept, values_kept = [], [], [], []
     for k, rule in enumerate(have):
         values = blocks[rule.column].to_numpy(dtype=float)
-        codes = flag_level_codes(values, rule)
+        codes = rule_codes(blocks, rule)
         idx = np.flatnonzero(codes)
         rows.append(idx)
         rule_idx.append(np.full(idx.size, k, dtype=np.int16))
@@ -291,7 +320,7 @@ def lookahead_table(
     rows = []
     cell_base = (pidx * n_d + dom_codes) * 3  # (period, domain, level code) cells
     for rule in have:
-        codes = flag_level_codes(blocks[rule.column].to_numpy(dtype=float)[sel], rule)
+        codes = rule_codes(blocks, rule, sel)
         # One pass per rule: tonnes and counts by period, domain and level code (0, 1, 2).
         cell = cell_base + codes
         size = n_p * n_d * 3

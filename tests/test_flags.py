@@ -164,3 +164,22 @@ def test_flagged_tonnes_figure_handles_empty_and_full(blocks):
 def test_default_rules_are_valid_and_unique():
     names = [r.flag for r in DEFAULT_FLAG_RULES]
     assert len(names) == len(set(names))
+
+
+def test_low_recovery_flag_looks_at_mill_ore_only():
+    # Oxide ore (oxide ratio > 0.5) floats poorly by nature and goes to the leach pad, so the
+    # default low-recovery flag leaves it out; NaN oxide ratio stays in scope.
+    import pandas as pd
+
+    from geomet.flags import DEFAULT_FLAG_RULES, flag_blocks, lookahead_table
+
+    rule = next(r for r in DEFAULT_FLAG_RULES if r.flag == "low_recovery")
+    blocks = pd.DataFrame({
+        "block_id": [1, 2, 3], "period": [1, 1, 1], "tonnes_t": [100.0, 200.0, 300.0],
+        "cu_recovery_frac": [0.5, 0.5, 0.5], "oxide_ratio_frac": [0.1, 0.9, float("nan")],
+    })
+    flagged = flag_blocks(blocks, [rule])
+    assert sorted(flagged["block_id"]) == [1, 3]
+    look = lookahead_table(blocks, [rule])
+    alert = look[look["level"] == "alert"].iloc[0]
+    assert alert["flagged_t"] == 400.0 and alert["period_ore_t"] == 600.0

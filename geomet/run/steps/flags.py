@@ -30,6 +30,10 @@ class ThresholdOptions(StepOptions):
         None, description="'above': values at or over the thresholds flag; 'below': at or under."
     )
     description: str | None = Field(None, description="Plain-words meaning.")
+    scope_column: str | None = Field(
+        None, description="Apply only to blocks whose scope_column is at most scope_max."
+    )
+    scope_max: float | None = Field(None, description="Upper end of the scope_column range.")
 
 
 class FlagsOptions(StepOptions):
@@ -81,6 +85,10 @@ def build_rules(options: FlagsOptions) -> list[FlagRule]:
             "alert": over.alert if over.alert is not None else (base.alert if base else None),
             "direction": over.direction or (base.direction if base else "above"),
             "description": over.description or (base.description if base else ""),
+            "scope_column": over.scope_column or (base.scope_column if base else None),
+            "scope_max": over.scope_max
+            if over.scope_max is not None
+            else (base.scope_max if base else None),
         }
         lacking = [k for k in ("column", "watch", "alert") if values[k] is None]
         if lacking:
