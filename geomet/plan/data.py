@@ -206,7 +206,7 @@ def _index(graph, periods, days, economics, mining, milp) -> BlendData:
     out_flows: dict[tuple[str, int], list[int]] = defaultdict(list)
     out_all: dict[str, list[int]] = {}
     fixed = mining == "fixed"
-    every_period = range(n_t)
+    every_period = list(range(n_t))
     for u, nbrs in graph.adjacency():
         kind = kinds[u]
         if kind != "source" and kind != "stockpile":
@@ -214,27 +214,29 @@ def _index(graph, periods, days, economics, mining, milp) -> BlendData:
         node = node_data[u]
         if kind == "source":
             first = position[node["period"]]
-            ts = range(first, first + 1) if fixed else range(first, n_t)
+            ts = [first] if fixed else list(range(first, n_t))
             own = out_all[u] = []
             handling = e.mining_cost_usd_t
         else:
             ts = every_period
             own = None
             handling = node.get("rehandle_usd_t", 0.0)
+        outs = [out_flows[(u, t)] for t in ts]  # this node's lists, fetched once
         for v, d in nbrs.items():
             value = -(d.get("cost_usd_t") or 0.0)
             value -= handling
             if v in proc_value:
                 value += proc_value[v][u]
-            for t in ts:
+            for t, out in zip(ts, outs, strict=True):
                 i = len(flows)
                 flows.append((u, v, t))
                 values.append(value)
                 in_flows[(v, t)].append(i)
-                out_flows[(u, t)].append(i)
+                out.append(i)
                 if own is not None:
                     own.append(i)
     out_all = {u: idx for u, idx in out_all.items() if idx}
+    out_flows = {k: idx for k, idx in out_flows.items() if idx}
     stockpiles = [n for n, k in kinds.items() if k == "stockpile"]
     inventories = [(s, t) for s in stockpiles for t in range(n_t)]
     return BlendData(

@@ -85,7 +85,10 @@ def route_graph(nodes: Sequence[Mapping], edges: Sequence[Mapping]) -> nx.DiGrap
 def _assemble(node_items: list, edge_items: list, problems: list[str]) -> nx.DiGraph:
     """The graph of (node, attributes) and (from, to, attributes) items, validated."""
     graph = nx.DiGraph()
-    graph.add_nodes_from(node_items)  # batch insertion: much faster than one call per item
+    # batch insertion of the names, then the attributes: (name, dict) items would cost networkx
+    # a caught TypeError and a dict copy per node
+    graph.add_nodes_from(node for node, _attrs in node_items)
+    nx.set_node_attributes(graph, dict(node_items))
     graph.add_edges_from(edge_items)
     if problems:
         message = "route graph is not valid: " + "; ".join(problems[:20])

@@ -243,6 +243,7 @@ def add_plant_limits(bm: BlendModel) -> None:
     """
     data, flow = bm.data, bm._flow
     bodies, infos = [], []
+    feeds: dict[tuple[str, int], tuple[np.ndarray, list]] = {}  # (proc, t) -> routes, variables
     for proc in data.nodes_of("processor"):
         for name, spec in LIMITS.items():
             if spec.processor != proc:
@@ -250,11 +251,14 @@ def add_plant_limits(bm: BlendModel) -> None:
             values = data.limit(proc, name)
             if values is None:
                 continue
-            for t, limit in enumerate(values):
-                if np.isnan(limit):
+            for t, limit in enumerate(values.tolist()):
+                if math.isnan(limit):
                     continue
-                idx = data.in_flows.get((proc, t), [])
-                if not idx and not (spec.sense == "min" and limit > 0):
+                if (proc, t) not in feeds:
+                    idx = data.in_flows.get((proc, t), [])
+                    feeds[(proc, t)] = (np.asarray(idx, dtype=np.int64), [flow[j] for j in idx])
+                idx, vars_ = feeds[(proc, t)]  # one variable list serves every row of (proc, t)
+                if not len(idx) and not (spec.sense == "min" and limit > 0):
                     continue  # nothing can reach the processor: the row is empty and satisfied
                 if spec.attribute is None:
                     a = np.ones(len(idx))
@@ -267,7 +271,7 @@ def add_plant_limits(bm: BlendModel) -> None:
                 else:
                     coefs, bound = a.tolist(), float(limit)
                 lb, ub = (None, bound) if spec.sense == "max" else (bound, None)
-                bodies.append((coefs, [flow[j] for j in idx], lb, ub))
+                bodies.append((coefs, vars_, lb, ub))
                 infos.append(RowInfo(name, proc, t, spec.sense, float(limit), spec.unit, spec.form))
     _soft(bm, "plant_limit", bodies, infos)
 
