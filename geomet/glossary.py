@@ -252,7 +252,7 @@ COLUMNS: dict[str, Column] = _cols(
      True),
     ("acid_oxide_kg_t", "Acid consumed dissolving oxide Cu (98.08/63.55 kg per kg Cu).", True),
     ("rmse_default", "Cross-validated root-mean-square error of the uncalibrated default model."),
-    ("rmse_cv", "Cross-validated (grouped by drill hole) root-mean-square error after calibration."),
+    ("rmse_cv", "Cross-validated (grouped by drill hole) root-mean-square error, calibrated."),
     ("mae_default", "Cross-validated mean absolute error of the uncalibrated default model."),
     ("mae_cv", "Cross-validated (grouped by drill hole) mean absolute error after calibration."),
     ("interval_coverage_frac", "Share of held-out tests inside their prediction interval."),

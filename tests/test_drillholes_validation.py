@@ -412,4 +412,5 @@ def test_testwork_samples_are_sparse_so_gaps_are_not_reported():
     gaps = {t: [p for p in validate_tables({"collars": collars, t: spaced}) if p.rule == "gap"]
             for t in ("testwork", "assays")}
     assert gaps["testwork"] == []
-    assert len(gaps["assays"]) == 1 and "gap from 30 to 80 m in hole H1" in gaps["assays"][0].message
+    assert len(gaps["assays"]) == 1
+    assert "gap from 30 to 80 m in hole H1" in gaps["assays"][0].message

@@ -182,4 +182,5 @@ def test_low_recovery_flag_looks_at_mill_ore_only():
     assert sorted(flagged["block_id"]) == [1, 3]
     look = lookahead_table(blocks, [rule])
     alert = look[look["level"] == "alert"].iloc[0]
-    assert alert["flagged_t"] == 400.0 and alert["period_ore_t"] == 600.0
+    assert alert["flagged_t"] == 400.0
+    assert alert["period_ore_t"] == 600.0

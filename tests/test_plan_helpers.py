@@ -262,4 +262,5 @@ def test_ore_type_splits_at_the_leach_rule_for_arrays_and_series():
     arr = ore_type_from_oxide_ratio(np.array([0.2, 0.5, np.nan]), oxide_min_frac=0.5)
     assert arr.tolist() == ["sulfide", "oxide", "sulfide"]
     ser = ore_type_from_oxide_ratio(pd.Series([0.7, 0.1], index=[10, 11]), oxide_min_frac=0.6)
-    assert ser.tolist() == ["oxide", "sulfide"] and ser.index.tolist() == [10, 11]
+    assert ser.tolist() == ["oxide", "sulfide"]
+    assert ser.index.tolist() == [10, 11]

@@ -17,8 +17,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from geomet.plan.highs import quiet_highs
 from geomet.errors import InputDataError, SolverError
+from geomet.plan.highs import quiet_highs
 
 _SEP_TOL_M = 1e-9
 
