@@ -46,6 +46,29 @@ class TestworkPlan:
     timings_s: dict[str, float] = field(default_factory=dict)
 
 
+def selection_columns(attributes) -> list[str]:
+    """Columns of the selection table, in the order a core-shed technician reads them."""
+    return [
+        "sample_ref",
+        "hole_id",
+        "from_m",
+        "to_m",
+        "length_m",
+        "mass_kg",
+        "core_size",
+        "core_fraction",
+        "domain",
+        *attributes,
+        "tonnes_represented_t",
+        "domain_share_frac",
+        "periods",
+        "reason",
+        "candidate_id",
+        "n_composites",
+        "density_t_m3",
+    ]
+
+
 def existing_samples(
     testwork: pd.DataFrame | None, composites: pd.DataFrame, attributes: Sequence[str]
 ) -> pd.DataFrame:
@@ -398,26 +421,7 @@ def plan_testwork(
         sel.insert(0, "sample_ref", [f"TWS-{k + 1:03d}" for k in range(len(sel))])
         sel["core_size"] = core_size_label
         sel["core_fraction"] = core_fraction
-        lead = [
-            "sample_ref",
-            "hole_id",
-            "from_m",
-            "to_m",
-            "length_m",
-            "mass_kg",
-            "core_size",
-            "core_fraction",
-            "domain",
-            *attrs,
-            "tonnes_represented_t",
-            "domain_share_frac",
-            "periods",
-            "reason",
-            "candidate_id",
-            "n_composites",
-            "density_t_m3",
-        ]
-        sel = sel[lead]
+        sel = sel[selection_columns(attrs)]
 
     # Coverage.
     t0 = time.perf_counter()

@@ -10,7 +10,7 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from geomet.run.registry import StepContext, StepOptions, register_step
 from geomet.sampling.candidates import CORE_DIAMETERS_MM
-from geomet.sampling.program import plan_testwork
+from geomet.sampling.program import plan_testwork, selection_columns
 from geomet.sampling.selection import DEFAULT_ATTRIBUTES
 
 
@@ -273,20 +273,4 @@ def _finite(x):
 
 
 def _empty_selection(plan) -> pd.DataFrame:
-    cols = [
-        "sample_ref",
-        "hole_id",
-        "from_m",
-        "to_m",
-        "length_m",
-        "mass_kg",
-        "core_size",
-        "core_fraction",
-        "domain",
-        *plan.result.standardiser.attributes,
-        "tonnes_represented_t",
-        "domain_share_frac",
-        "periods",
-        "reason",
-    ]
-    return pd.DataFrame(columns=cols)
+    return pd.DataFrame(columns=selection_columns(plan.result.standardiser.attributes))
