@@ -189,21 +189,7 @@ def iis_diagnosis(data: BlendData) -> pd.DataFrame:
                 f"period {period}: {_describe(info)} ({info.limit} at {info.node}, "
                 f"{_num(info.value)} {info.unit}) is part of a conflicting set"
             )
-            records.append(
-                (
-                    "iis",
-                    info.limit,
-                    _describe(info),
-                    info.node,
-                    period,
-                    info.sense,
-                    info.value,
-                    info.unit,
-                    np.nan,
-                    np.nan,
-                    message,
-                )
-            )
+            records.append(_iis_limit_record(info, period, message))
         else:
             what = _HARD_ROWS.get(family, family)
             node, period = _hard_row_place(bm, family, index)
@@ -231,6 +217,23 @@ def iis_diagnosis(data: BlendData) -> pd.DataFrame:
     return pd.DataFrame.from_records(records, columns=list(DIAGNOSIS_COLUMNS))
 
 
+def _iis_limit_record(info, period, message: str) -> tuple:
+    """One diagnosis row (DIAGNOSIS_COLUMNS order) for a plant limit in a conflicting set."""
+    return (
+        "iis",
+        info.limit,
+        _describe(info),
+        info.node,
+        period,
+        info.sense,
+        info.value,
+        info.unit,
+        np.nan,
+        np.nan,
+        message,
+    )
+
+
 def _empty_minimum_rows(bm) -> pd.DataFrame:
     """Minimum limits on processors that no route reaches (a conflict on their own)."""
     data = bm.data
@@ -247,21 +250,7 @@ def _empty_minimum_rows(bm) -> pd.DataFrame:
                 f"{_num(info.value)} {info.unit}) cannot hold: no route reaches {info.node} "
                 "in that period"
             )
-            records.append(
-                (
-                    "iis",
-                    info.limit,
-                    _describe(info),
-                    info.node,
-                    period,
-                    info.sense,
-                    info.value,
-                    info.unit,
-                    np.nan,
-                    np.nan,
-                    message,
-                )
-            )
+            records.append(_iis_limit_record(info, period, message))
     return pd.DataFrame.from_records(records, columns=list(DIAGNOSIS_COLUMNS))
 
 
